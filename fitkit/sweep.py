@@ -1,0 +1,116 @@
+"""The Sweep record: what an instrument measured, in SI, with nothing about file formats.
+
+Readers make Sweeps; fitting reads them. A Sweep is checked when made: frequencies finite,
+positive, ascending and unique; the measured values finite and the same length.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from fitkit.errors import InputError
+
+#: What a sweep measured. Values are complex when phase was recorded, real magnitudes
+#: otherwise. "ratio": output over input of the bench divider (dimensionless);
+#: "volts": absolute output in volts RMS; "impedance": Z in ohm; "s11", "s21":
+#: scattering parameters against the reference impedance.
+KINDS = ("ratio", "volts", "impedance", "s11", "s21")
+
+
+@dataclass(frozen=True)
+class Sweep:
+    """One measured frequency sweep.
+
+    Attributes
+    ----------
+    freq_hz : ndarray of float64
+        Frequencies in Hz, ascending and unique.
+    values : ndarray
+        The measured quantity in SI: complex when phase was measured, else real magnitudes.
+    kind : str
+        One of :data:`KINDS`.
+    recorded_in_db : bool
+        The magnitude was written in dB; its noise is then roughly even in dB.
+    source : str
+        Where the sweep came from (a file path), for messages and reports.
+    metadata : dict
+        What the file stated about itself (e.g. a generator amplitude written in a
+        key,value line); shown to the user for confirmation, never trusted silently.
+    notes : list of str
+        What the reader did on the way (rows dropped, sorted, merged), to show the user.
+    """
+
+    freq_hz: np.ndarray
+    values: np.ndarray
+    kind: str
+    recorded_in_db: bool = False
+    source: str = "<memory>"
+    metadata: dict = field(default_factory=dict)
+    notes: list = field(default_factory=list)
+
+    def __post_init__(self) -> None:
+        f = np.asarray(self.freq_hz, dtype=np.float64)
+        v = np.asarray(self.values)
+        if not np.iscomplexobj(v):
+            v = v.astype(np.float64)
+        object.__setattr__(self, "freq_hz", f)
+        object.__setattr__(self, "values", v)
+        if self.kind not in KINDS:
+            raise InputError(
+                f"unknown measured quantity {self.kind!r}",
+                remedy=f"use one of: {', '.join(KINDS)}",
+                path=self.source,
+            )
+        if f.ndim != 1 or v.shape != f.shape:
+            raise InputError(
+                f"{f.size} frequencies but {v.size} measured values",
+                remedy="give one measured value per frequency",
+                path=self.source,
+            )
+        if f.size < 2:
+            raise InputError(
+                f"the sweep has {f.size} point(s)",
+                remedy="a fit needs a sweep of many points across the resonance",
+                path=self.source,
+            )
+        if not np.all(np.isfinite(f)) or not np.all(np.isfinite(v)):
+            raise InputError(
+                "the sweep holds a value that is not a finite number",
+                remedy="remove or repair the rows with NaN or infinite values",
+                path=self.source,
+            )
+        if np.any(f <= 0):
+            raise InputError(
+                f"frequency {f[f <= 0][0]:g} Hz is zero or negative",
+                remedy="check the frequency column and its unit",
+                path=self.source,
+            )
+        if np.any(np.diff(f) <= 0):
+            raise InputError(
+                "frequencies are not ascending and unique",
+                remedy="sort the sweep and merge repeated frequencies",
+                path=self.source,
+            )
+
+    @property
+    def is_complex(self) -> bool:
+        """True when phase was measured."""
+        return bool(np.iscomplexobj(self.values))
+
+    @property
+    def points(self) -> int:
+        return int(self.freq_hz.size)
+
+    def describe(self) -> str:
+        """A one-line description for the user."""
+        from fitkit.units import format_quantity
+
+        form = "complex" if self.is_complex else "magnitude only"
+        if self.recorded_in_db:
+            form += ", recorded in dB"
+        return (
+            f"{self.points} points, {format_quantity(self.freq_hz[0], 'Hz')} to "
+            f"{format_quantity(self.freq_hz[-1], 'Hz')}, {self.kind} ({form})"
+        )

@@ -1,0 +1,123 @@
+"""SI prefixes in and out: engineering notation for printing, prefixed values for input.
+
+Printing follows common practice for measured values: the uncertainty with two
+significant digits, the value rounded to the same decimal place, both with one prefix.
+Plain ASCII ("u" for micro, "ohm") so output survives any terminal or log file.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+
+from fitkit.errors import SetupError
+
+PREFIXES = {
+    "p": 1e-12,
+    "n": 1e-9,
+    "u": 1e-6,
+    "\u00b5": 1e-6,  # micro sign
+    "\u03bc": 1e-6,  # Greek mu
+    "m": 1e-3,
+    "": 1.0,
+    "k": 1e3,
+    "K": 1e3,
+    "M": 1e6,
+    "meg": 1e6,
+    "G": 1e9,
+}
+_PRINT_PREFIXES = {-12: "p", -9: "n", -6: "u", -3: "m", 0: "", 3: "k", 6: "M", 9: "G"}
+
+_NUMBER = r"[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?"
+
+
+def parse_quantity(text: str | float | int, unit: str, *, what: str = "value") -> float:
+    """Read a value such as ``"4.7k"``, ``"4k7"``, ``"12 pF"`` or ``"100 ohm"`` in SI.
+
+    Parameters
+    ----------
+    text : str or number
+        The value as typed; numbers pass through unchanged.
+    unit : str
+        The unit the value is in (``"ohm"``, ``"F"``, ``"H"``, ``"Hz"``, ``"V"``); it may be
+        written after the prefix or left out.
+    what : str
+        What the value is, for the error message.
+
+    Raises
+    ------
+    SetupError
+        When the text is not a number with an optional SI prefix and the expected unit.
+
+    Examples
+    --------
+    >>> parse_quantity("4k7", "ohm")
+    4700.0
+    >>> parse_quantity("12 pF", "F")
+    1.2e-11
+    """
+    if isinstance(text, (int, float)) and not isinstance(text, bool):
+        return float(text)
+    raw = str(text).strip()
+    s = raw.replace(" ", "")
+    for spelling in _unit_spellings(unit):
+        if s.lower().endswith(spelling.lower()) and len(s) > len(spelling):
+            s = s[: -len(spelling)]
+            break
+    # the trade's resistor notation: 4k7 = 4.7k, 2R2 = 2.2
+    m = re.fullmatch(r"(\d+)([pnumkKMGR\u00b5])(\d+)", s)
+    if m:
+        prefix = "" if m.group(2) == "R" else m.group(2)
+        return float(f"{m.group(1)}.{m.group(3)}") * PREFIXES[prefix]
+    m = re.fullmatch(rf"({_NUMBER})(meg|[pnumkKMG\u00b5\u03bc]?)", s)
+    if not m:
+        raise SetupError(
+            f"cannot read {what} {raw!r} as a number in {unit}",
+            remedy=f"write it as a number with an optional SI prefix, e.g. '4.7k' or '12p{unit}'",
+        )
+    return float(m.group(1)) * PREFIXES[m.group(2)]
+
+
+def _unit_spellings(unit: str) -> list[str]:
+    if unit == "ohm":
+        return ["ohms", "ohm", "\u03a9", "\u2126", "r"]
+    return [unit]
+
+
+def format_quantity(value: float, unit: str = "", stderr: float | None = None) -> str:
+    """Engineering notation with an SI prefix, and the uncertainty when given.
+
+    Examples
+    --------
+    >>> format_quantity(98.71e-6, "H", 0.42e-6)
+    '98.71 uH +/- 0.42 uH'
+    >>> format_quantity(63.04, "", 1.53)
+    '63.0 +/- 1.5'
+    """
+    if value is None or not math.isfinite(value):
+        return f"{value} {unit}".strip()
+    scale_exp = _prefix_exponent(value if value != 0 else (stderr or 0.0)) if unit else 0
+    scale = 10.0**scale_exp
+    prefix = _PRINT_PREFIXES.get(scale_exp, "") if unit else ""
+    suffix = f" {prefix}{unit}" if unit else ""
+    v = value / scale
+    if stderr is None or not math.isfinite(stderr) or stderr <= 0:
+        text = _significant(v, 4)
+        return f"{text}{suffix}"
+    e = stderr / scale
+    decimals = max(0, 1 - int(math.floor(math.log10(e))))
+    return f"{v:.{decimals}f}{suffix} +/- {e:.{decimals}f}{suffix}"
+
+
+def _prefix_exponent(value: float) -> int:
+    if value == 0 or not math.isfinite(value):
+        return 0
+    exp = int(math.floor(math.log10(abs(value)) / 3.0)) * 3
+    return min(max(exp, -12), 9)
+
+
+def _significant(v: float, digits: int) -> str:
+    if v == 0:
+        return "0"
+    decimals = max(0, digits - 1 - int(math.floor(math.log10(abs(v)))))
+    return f"{v:.{decimals}f}"
