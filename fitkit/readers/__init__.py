@@ -29,7 +29,5 @@ def read_sweep(path: str | Path, *, columns: dict | None = None) -> Sweep:
     """
     p = Path(path)
     if not p.is_file():
-        raise InputError(
-            "no such file", remedy="check the path to the sweep file", path=p
-        )
+        raise InputError("no such file", remedy="check the path to the sweep file", path=p)
     return read_table(p, columns=columns)

@@ -1,0 +1,125 @@
+"""Bytes to text: which encoding a sweep file uses, and refusing files that are not text.
+
+Instruments write UTF-8 (with or without a byte-order mark), UTF-16 with a byte-order mark
+(some Windows software) or a legacy 8-bit code page; Latin-1 is the fallback because it
+decodes any byte, so it is tried last and said in the notes.
+"""
+
+from __future__ import annotations
+
+import codecs
+from dataclasses import dataclass
+from pathlib import Path
+
+from fitkit.errors import InputError
+
+#: How much of a file is read to sniff its layout; the bulk is parsed by pandas.
+HEAD_BYTES = 256 * 1024
+
+
+@dataclass(frozen=True)
+class FileText:
+    """The start of a file decoded, and how to decode the rest.
+
+    Attributes
+    ----------
+    encoding : str
+        A Python codec name that decodes the whole file (pandas takes the same name).
+    head : str
+        The first :data:`HEAD_BYTES` decoded, cut at the last complete line unless the
+        whole file fits.
+    complete : bool
+        True when ``head`` is the whole file.
+    notes : list of str
+        What the decoding had to do, for the user.
+    """
+
+    encoding: str
+    head: str
+    complete: bool
+    notes: list
+
+
+def read_head(path: Path) -> FileText:
+    """Decode the start of ``path`` and decide its encoding.
+
+    Raises
+    ------
+    InputError
+        When the file is empty or holds binary data rather than text.
+    """
+    with open(path, "rb") as fh:
+        raw = fh.read(HEAD_BYTES + 1)
+    complete = len(raw) <= HEAD_BYTES
+    raw = raw[:HEAD_BYTES]
+    if not raw.strip(b" \t\r\n\x00\xef\xbb\xbf\xff\xfe"):
+        raise InputError(
+            "the file is empty", remedy="export the sweep again; the file holds no text", path=path
+        )
+    notes: list[str] = []
+    if raw.startswith((codecs.BOM_UTF16_LE, codecs.BOM_UTF16_BE)):
+        encoding = "utf-16"
+        notes.append("decoded as UTF-16 (byte-order mark)")
+    elif raw.startswith(codecs.BOM_UTF8):
+        encoding = "utf-8-sig"
+    else:
+        encoding = "utf-8"
+    head = _decode(raw, encoding, complete)
+    if head is None and encoding == "utf-8":
+        encoding = "latin-1"
+        head = _decode(raw, encoding, complete)
+        notes.append("not valid UTF-8; decoded as Latin-1")
+    if head is None:
+        raise InputError(
+            f"the file is not valid {encoding} text",
+            remedy="export the sweep again as plain text (UTF-8)",
+            path=path,
+        )
+    _refuse_binary(head, path)
+    if not complete:
+        cut = head.rfind("\n")
+        head = head[: cut + 1] if cut >= 0 else head
+    return FileText(encoding=encoding, head=head, complete=complete, notes=notes)
+
+
+def read_all(path: Path, encoding: str) -> str:
+    """Decode the whole file with ``encoding`` (used for small formats such as Touchstone).
+
+    Raises
+    ------
+    InputError
+        When a byte past the sniffed start does not decode.
+    """
+    try:
+        text = path.read_bytes().decode(encoding)
+    except UnicodeDecodeError as exc:
+        raise InputError(
+            f"byte {exc.start} is not valid {encoding} text",
+            remedy="export the file again as plain text (UTF-8)",
+            path=path,
+        ) from None
+    _refuse_binary(text, path)
+    return text
+
+
+def _decode(raw: bytes, encoding: str, complete: bool) -> str | None:
+    """Decode, tolerating a multi-byte character cut at the end of an incomplete head."""
+    decoder = codecs.getincrementaldecoder(encoding)()
+    try:
+        return decoder.decode(raw, final=complete)
+    except UnicodeDecodeError:
+        return None
+
+
+def _refuse_binary(text: str, path: Path) -> None:
+    """Text files hold no NUL and few control characters; anything else is not a sweep."""
+    sample = text[:65536]
+    controls = sum(1 for ch in sample if ord(ch) < 32 and ch not in "\t\r\n\f\v")
+    if "\x00" in sample or controls > max(8, len(sample) // 100):
+        line = sample[: sample.find("\x00")].count("\n") + 1 if "\x00" in sample else None
+        raise InputError(
+            "the file holds binary data, not a text sweep",
+            remedy="export the sweep from the instrument as CSV or Touchstone text",
+            path=path,
+            line=line,
+        )

@@ -1,0 +1,204 @@
+"""CircuitFit: fitted values with uncertainties and correlations, fit quality, and where
+they came from. Serialises to JSON and back, so later commands can start from a saved fit.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+from uncertainties import correlated_values, ufloat
+
+from fitkit import __version__
+from fitkit.errors import InputError
+from fitkit.units import format_quantity
+
+#: name -> (unit, label) for everything a fit reports
+QUANTITIES = {
+    "R": ("ohm", "R (circuit loss)"),
+    "L": ("H", "L"),
+    "C": ("F", "C"),
+    "f0_hz": ("Hz", "f0 (resonance)"),
+    "Q": ("", "Q (circuit, unloaded)"),
+    "Q_loaded": ("", "Q (loaded, as the bench saw it)"),
+    "bandwidth_hz": ("Hz", "bandwidth -3 dB (circuit)"),
+    "loaded_bandwidth_hz": ("Hz", "bandwidth -3 dB (loaded)"),
+}
+COMPONENTS = ("R", "L", "C")
+
+
+@dataclass(frozen=True)
+class Quantity:
+    """A reported value: SI value and standard error, or the reason it is not known."""
+
+    name: str
+    value: float | None
+    stderr: float | None
+    reason: str = ""
+
+    @property
+    def unit(self) -> str:
+        return QUANTITIES[self.name][0]
+
+    @property
+    def determined(self) -> bool:
+        return self.value is not None
+
+    def text(self) -> str:
+        if not self.determined:
+            return "not determined"
+        return format_quantity(self.value, self.unit, self.stderr)
+
+    def to_dict(self) -> dict:
+        out = {"value": self.value, "stderr": self.stderr, "unit": self.unit}
+        out["determined"] = self.determined
+        if self.reason:
+            out["reason"] = self.reason
+        return out
+
+
+@dataclass
+class FitStats:
+    """How well the model describes the sweep, and what the fit did on the way."""
+
+    points: int
+    used_points: int
+    redchi: float
+    rms: float
+    rms_unit: str
+    aic: float
+    bic: float
+    converged: bool
+    noise: str
+    start: str
+    outliers_hz: list = field(default_factory=list)
+    warnings: list = field(default_factory=list)
+
+
+@dataclass
+class CircuitFit:
+    """The result of fitting a circuit to a sweep (see :func:`fitkit.fit_sweep`)."""
+
+    topology: str
+    quantities: dict
+    covariance_names: list
+    covariance: np.ndarray
+    stats: FitStats
+    setup: dict
+    sweep: dict
+    known: dict
+    undetermined: list
+    model_curve: tuple | None = None  # (freq_hz, measured, fitted) when made from a sweep
+
+    def __getitem__(self, name: str) -> Quantity:
+        return self.quantities[name]
+
+    def correlated(self) -> dict:
+        """Correlated ``uncertainties`` values of every determined quantity, for predictions."""
+        names = self.covariance_names
+        base = correlated_values(
+            [self.quantities[n].value for n in names], np.asarray(self.covariance)
+        )
+        out = dict(zip(names, base))
+        for name, kv in self.known.items():
+            out.setdefault(name, ufloat(kv["value"], kv.get("stderr") or 0.0))
+        return out
+
+    def correlations(self) -> dict:
+        names = self.covariance_names
+        cov = np.asarray(self.covariance, dtype=float)
+        sd = np.sqrt(np.diag(cov))
+        with np.errstate(divide="ignore", invalid="ignore"):
+            corr = cov / np.outer(sd, sd)
+        return {"names": list(names), "matrix": np.round(corr, 6).tolist()}
+
+    def correlation(self, a: str, b: str) -> float | None:
+        corr = self.correlations()
+        if a not in corr["names"] or b not in corr["names"]:
+            return None
+        value = corr["matrix"][corr["names"].index(a)][corr["names"].index(b)]
+        return None if value is None or not math.isfinite(value) else value
+
+    def to_dict(self) -> dict:
+        q = self.quantities
+        return {
+            "fitkit_version": __version__,
+            "topology": self.topology,
+            "values": {n: q[n].to_dict() for n in COMPONENTS},
+            "derived": {n: q[n].to_dict() for n in QUANTITIES if n not in COMPONENTS},
+            "correlations": self.correlations(),
+            "covariance": {
+                "names": list(self.covariance_names),
+                "matrix": np.asarray(self.covariance).tolist(),
+            },
+            "undetermined": self.undetermined,
+            "known": self.known,
+            "fit": {
+                "points": self.stats.points,
+                "used_points": self.stats.used_points,
+                "redchi": self.stats.redchi,
+                "rms": self.stats.rms,
+                "rms_unit": self.stats.rms_unit,
+                "aic": self.stats.aic,
+                "bic": self.stats.bic,
+                "converged": self.stats.converged,
+                "noise": self.stats.noise,
+                "start": self.stats.start,
+                "outliers_hz": self.stats.outliers_hz,
+                "warnings": self.stats.warnings,
+            },
+            "setup": self.setup,
+            "sweep": self.sweep,
+        }
+
+    def to_json(self) -> str:
+        return json.dumps(self.to_dict(), indent=2, allow_nan=False)
+
+    @classmethod
+    def from_dict(cls, data: dict, source: str = "<json>") -> CircuitFit:
+        """Rebuild a saved fit (the plot curve is not kept)."""
+        try:
+            quantities = {}
+            for name in QUANTITIES:
+                entry = data["values"][name] if name in COMPONENTS else data["derived"][name]
+                quantities[name] = Quantity(
+                    name, entry["value"], entry["stderr"], entry.get("reason", "")
+                )
+            stats = FitStats(**data["fit"])
+            return cls(
+                topology=data["topology"],
+                quantities=quantities,
+                covariance_names=list(data["covariance"]["names"]),
+                covariance=np.asarray(data["covariance"]["matrix"], dtype=float),
+                stats=stats,
+                setup=data["setup"],
+                sweep=data["sweep"],
+                known=data.get("known", {}),
+                undetermined=data.get("undetermined", []),
+            )
+        except (KeyError, TypeError, ValueError) as exc:
+            raise InputError(
+                f"not a saved fitkit fit: missing or malformed entry {exc}",
+                remedy="save a fit with 'fitkit fit SWEEP --json > fit.json' and use that file",
+                path=source,
+            ) from None
+
+
+def load_fit(path) -> CircuitFit:
+    """Read a fit saved as JSON by ``fitkit fit --json``."""
+    try:
+        with open(path, encoding="utf-8") as fh:
+            data = json.load(fh)
+    except FileNotFoundError:
+        raise InputError(
+            "no such file", remedy="check the path to the saved fit", path=path
+        ) from None
+    except (json.JSONDecodeError, UnicodeDecodeError) as exc:
+        raise InputError(
+            f"not JSON ({exc})",
+            remedy="give a fit saved with 'fitkit fit SWEEP --json > fit.json'",
+            path=path,
+        ) from None
+    return CircuitFit.from_dict(data, str(path))

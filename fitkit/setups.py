@@ -1,0 +1,216 @@
+"""Bench arrangements: what the instrument saw when the circuit had impedance Z.
+
+Every arrangement is a bilinear map of Z, ``m = (a Z + b) / (c Z + d)``, with coefficients
+set by the fixture (source resistance, sense resistor with the probe capacitance across
+it, reference impedance). One map serves the forward model, its exact inverse (for the
+closed-form start) and the loop resistance that loads the circuit (for the loaded Q).
+The trade's relations:
+
+- divider: ``H = Zsense / (Rsource + Z + Zsense)``, ``Zsense = Rs || 1/(j w Cprobe)``;
+  against the generator's output terminal the source resistance drops out:
+  ``H = Zsense / (Z + Zsense)``;
+- impedance: the analyser reads Z itself;
+- reflection: ``S11 = (Z - Z0) / (Z + Z0)``;
+- series-through: ``S21 = 2 Z0 / (2 Z0 + Z)``;
+- shunt-through: ``S21 = 2 Z / (2 Z + Z0)``.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import asdict, dataclass, replace
+
+import numpy as np
+
+from fitkit.errors import SetupError
+from fitkit.units import format_quantity
+
+BENCHES = ("divider", "impedance", "reflection", "series-through", "shunt-through")
+REFERENCES = ("terminal", "open-circuit")
+DISPLAYS = ("matched", "open-circuit")
+
+#: Which bench arrangement each measured quantity comes from, when the user does not say.
+DEFAULT_BENCH = {
+    "ratio": "divider",
+    "volts": "divider",
+    "impedance": "impedance",
+    "s11": "reflection",
+    "s21": "series-through",
+}
+_BENCHES_FOR_KIND = {
+    "ratio": ("divider",),
+    "volts": ("divider",),
+    "impedance": ("impedance",),
+    "s11": ("reflection",),
+    "s21": ("series-through", "shunt-through"),
+}
+
+
+@dataclass(frozen=True)
+class Setup:
+    """The bench arrangement a sweep was taken with. Known values, never fitted.
+
+    Attributes
+    ----------
+    bench : str
+        One of :data:`BENCHES`.
+    kind : str
+        The measured quantity (see :data:`fitkit.sweep.KINDS`).
+    source_ohm : float
+        The generator's source resistance.
+    sense_ohm : float or None
+        The sense resistor of a divider.
+    probe_f : float
+        Probe or input capacitance across the sense resistor.
+    reference : str
+        For a divider ratio: measured against the generator's output ``"terminal"`` (its
+        source resistance drops out) or against its ``"open-circuit"`` EMF.
+    z0_ohm : float
+        Reference impedance of S-parameters.
+    amplitude_vrms : float or None
+        Generator amplitude as set on its display, for absolute-volt sweeps.
+    display : str
+        ``"matched"``: the generator's display assumes a 50 ohm load and shows half its
+        open-circuit EMF (common practice); ``"open-circuit"``: it shows the EMF.
+    relative : bool
+        The measured scale is not calibrated (only its shape counts).
+    """
+
+    bench: str
+    kind: str
+    source_ohm: float = 50.0
+    sense_ohm: float | None = None
+    probe_f: float = 0.0
+    reference: str = "terminal"
+    z0_ohm: float = 50.0
+    amplitude_vrms: float | None = None
+    display: str = "matched"
+    relative: bool = False
+
+    def __post_init__(self) -> None:
+        _check_choice("bench", self.bench, BENCHES)
+        _check_choice("reference", self.reference, REFERENCES)
+        _check_choice("generator display", self.display, DISPLAYS)
+        if self.bench not in _BENCHES_FOR_KIND.get(self.kind, ()):
+            allowed = " or ".join(_BENCHES_FOR_KIND.get(self.kind, ()))
+            raise SetupError(
+                f"a {self.kind} sweep cannot come from a {self.bench} bench",
+                remedy=f"for {self.kind} data choose the {allowed} bench",
+            )
+        for name in ("source_ohm", "z0_ohm", "probe_f"):
+            value = getattr(self, name)
+            if not (math.isfinite(value) and value >= 0):
+                raise SetupError(f"{name} = {value!r} must be a finite value >= 0")
+        if self.z0_ohm <= 0:
+            raise SetupError("the reference impedance must be above 0 ohm")
+        if self.bench == "divider":
+            if self.sense_ohm is None or not self.sense_ohm > 0:
+                raise SetupError(
+                    "a divider sweep needs the sense resistor's value",
+                    remedy="give it, e.g. --sense-r 47 (or sense_resistor in the setup file)",
+                )
+        if self.relative and self.bench != "divider":
+            raise SetupError(
+                f"only a divider sweep can be relative; a {self.bench} sweep has its own scale",
+                remedy="drop the relative flag",
+            )
+
+    @property
+    def emf_vrms(self) -> float | None:
+        """The generator's open-circuit EMF behind its source resistance."""
+        if self.amplitude_vrms is None:
+            return None
+        return self.amplitude_vrms * (2.0 if self.display == "matched" else 1.0)
+
+    @property
+    def source_in_loop(self) -> bool:
+        return self.kind == "volts" or self.reference == "open-circuit"
+
+    def coefficients(self, freq_hz: np.ndarray) -> tuple:
+        """The bilinear map ``m = (a Z + b) / (c Z + d)`` at each frequency."""
+        w = 2.0 * np.pi * np.asarray(freq_hz, dtype=np.float64)
+        one = np.ones_like(w)
+        if self.bench == "divider":
+            zs = self.sense_ohm / (1.0 + 1j * w * self.probe_f * self.sense_ohm)
+            scale = self.emf_vrms if (self.kind == "volts" and self.emf_vrms) else 1.0
+            rsrc = self.source_ohm if self.source_in_loop else 0.0
+            return 0.0 * one, scale * zs, one, rsrc + zs
+        if self.bench == "impedance":
+            return one, 0.0 * one, 0.0 * one, one
+        z0 = self.z0_ohm
+        if self.bench == "reflection":
+            return one, -z0 * one, one, z0 * one
+        if self.bench == "series-through":
+            return 0.0 * one, 2 * z0 * one, one, 2 * z0 * one
+        return 2.0 * one, 0.0 * one, 2.0 * one, z0 * one  # shunt-through
+
+    def response(self, z: np.ndarray, freq_hz: np.ndarray) -> np.ndarray:
+        """What the instrument reads when the circuit has impedance ``z``."""
+        a, b, c, d = self.coefficients(freq_hz)
+        return (a * z + b) / (c * z + d)
+
+    def impedance_from(self, measured: np.ndarray, freq_hz: np.ndarray) -> tuple:
+        """Invert :meth:`response`: the circuit's Z and ``|dZ/dm|`` (noise gain)."""
+        a, b, c, d = self.coefficients(freq_hz)
+        denom = a - c * measured
+        with np.errstate(divide="ignore", invalid="ignore"):
+            z = (d * measured - b) / denom
+            gain = np.abs((a * d - b * c) / denom**2)
+        return z, gain
+
+    @property
+    def external_ohm(self) -> float:
+        """Resistance the fixture puts in series with the circuit (probe ignored).
+
+        The loaded Q is ``w0 L / (R + external_ohm)``.
+        """
+        if self.bench == "divider":
+            return (self.source_ohm if self.source_in_loop else 0.0) + self.sense_ohm
+        _, _, c, d = (float(np.real(x[0])) for x in self.coefficients(np.array([1.0])))
+        return 0.0 if c == 0 else d / c
+
+    @property
+    def is_calibrated(self) -> bool:
+        """True when the measured scale ties Z to ohms."""
+        if self.relative:
+            return False
+        return not (self.kind == "volts" and self.amplitude_vrms is None)
+
+    def describe(self) -> str:
+        """One line saying what was assumed."""
+        if self.bench == "divider":
+            parts = [f"divider, sense resistor {format_quantity(self.sense_ohm, 'ohm')}"]
+            if self.source_in_loop:
+                parts.append(f"source {format_quantity(self.source_ohm, 'ohm')} in the loop")
+            else:
+                parts.append("ratio against the generator terminal")
+            if self.probe_f:
+                parts.append(f"probe {format_quantity(self.probe_f, 'F')}")
+            if self.kind == "volts":
+                if self.amplitude_vrms is None:
+                    parts.append("generator amplitude not given")
+                else:
+                    parts.append(
+                        f"generator {format_quantity(self.amplitude_vrms, 'Vrms')} "
+                        f"({self.display} display, EMF {format_quantity(self.emf_vrms, 'Vrms')})"
+                    )
+            if self.relative:
+                parts.append("relative (uncalibrated) scale")
+            return ", ".join(parts)
+        if self.bench == "impedance":
+            return "impedance read directly"
+        return f"{self.bench}, reference impedance {format_quantity(self.z0_ohm, 'ohm')}"
+
+    def to_dict(self) -> dict:
+        return asdict(self)
+
+    def with_kind(self, kind: str) -> Setup:
+        return replace(self, kind=kind)
+
+
+def _check_choice(what: str, value: str, allowed: tuple) -> None:
+    if value not in allowed:
+        raise SetupError(
+            f"unknown {what} {value!r}",
+            remedy=f"choose one of: {', '.join(allowed)}",
+        )
