@@ -1,0 +1,134 @@
+"""``fitkit fit``: read a sweep, fit the circuit, print the values."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import click
+
+from fitkit.bench_file import (
+    DEFAULT_NAME,
+    build_setup,
+    find_bench_file,
+    known_values,
+    load_bench_file,
+)
+from fitkit.cli.base import main, reports_errors
+from fitkit.errors import InputError
+from fitkit.fitting import fit_sweep
+from fitkit.readers import read_sweep
+from fitkit.report.table import fit_table
+from fitkit.setups import BENCHES, DISPLAYS, REFERENCES
+
+
+def bench_options(func):
+    """The bench setup options shared by every command that fits a sweep."""
+    options = [
+        click.option(
+            "--setup",
+            "setup_file",
+            type=click.Path(dir_okay=False),
+            help=f"Setup file (TOML); default: {DEFAULT_NAME} beside the sweep, if any.",
+        ),
+        click.option("--bench", type=click.Choice(BENCHES), help="How the sweep was taken."),
+        click.option(
+            "--source-r",
+            help="Generator source resistance, ohm [default: 50].",
+        ),
+        click.option("--sense-r", help="Sense resistor of a divider, ohm (e.g. 47, 4k7)."),
+        click.option(
+            "--probe-c", help="Probe/input capacitance across the sense resistor (e.g. 15p)."
+        ),
+        click.option(
+            "--ratio-ref",
+            type=click.Choice(REFERENCES),
+            help="Divider ratio taken against the generator's output terminal "
+            "[default] or its open-circuit EMF (source resistance then in the loop).",
+        ),
+        click.option(
+            "--amplitude", help="Generator amplitude for volt sweeps: '2 Vpp', '0.7 Vrms'."
+        ),
+        click.option(
+            "--display",
+            type=click.Choice(DISPLAYS),
+            help="Generator display assumes a matched 50 ohm load (shows half the EMF) "
+            "[default], or shows the open-circuit EMF.",
+        ),
+        click.option("--z0", help="Reference impedance of S-parameters, ohm [default: 50]."),
+        click.option(
+            "--relative/--calibrated",
+            default=None,
+            help="The ratio's scale is not calibrated (only its shape counts).",
+        ),
+        click.option(
+            "--known",
+            multiple=True,
+            metavar="NAME=VALUE",
+            help="A value measured otherwise, e.g. L=100u or L=100u+-0.5u (LCR meter).",
+        ),
+    ]
+    for option in reversed(options):
+        func = option(func)
+    return func
+
+
+def fit_from_options(sweep_path: str, opts: dict, *, noise=None, keep_outliers=False):
+    """Read, set up and fit one sweep from the command line's values."""
+    bench_path = find_bench_file(sweep_path, opts.get("setup_file"))
+    file = load_bench_file(bench_path) if bench_path else {}
+    sweep = read_sweep(sweep_path, columns=file.get("columns") or None)
+    overrides = {
+        "bench": opts.get("bench"),
+        "source_ohm": opts.get("source_r"),
+        "sense_ohm": opts.get("sense_r"),
+        "probe_f": opts.get("probe_c"),
+        "reference": opts.get("ratio_ref"),
+        "amplitude_vrms": opts.get("amplitude"),
+        "display": opts.get("display"),
+        "z0_ohm": opts.get("z0"),
+        "relative": opts.get("relative"),
+    }
+    setup = build_setup(sweep, file.get("bench"), overrides)
+    known = known_values(file.get("known"), opts.get("known", ()))
+    fit = fit_sweep(sweep, setup, known=known, noise=noise, keep_outliers=keep_outliers)
+    return fit, bench_path
+
+
+@main.command("fit")
+@click.argument("sweep_file", type=click.Path(dir_okay=False))
+@bench_options
+@click.option(
+    "--noise",
+    help="Stated noise: '0.05dB', '0.05dB,0.3deg', '1%' or an additive '2e-3'. "
+    "Default: estimated from the residuals.",
+)
+@click.option("--keep-outliers", is_flag=True, help="Do not refit without outlying points.")
+@click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of a table.")
+@click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="Write a plot (PNG).")
+@click.option("--force", is_flag=True, help="Replace an existing plot file.")
+@reports_errors
+def fit_command(sweep_file, noise, keep_outliers, as_json, plot_path, force, **opts):
+    """Fit a series R-L-C to SWEEP_FILE and print R, L, C, f0, Q and bandwidth.
+
+    Every value comes with its standard uncertainty; values the sweep cannot determine
+    are named, with what would determine them. Exit status 2 on bad input or a failed fit.
+    """
+    if plot_path and Path(plot_path).exists() and not force:
+        raise InputError(
+            "the plot file exists already",
+            remedy="choose another name or add --force to replace it",
+            path=plot_path,
+        )
+    fit, bench_path = fit_from_options(sweep_file, opts, noise=noise, keep_outliers=keep_outliers)
+    if plot_path:
+        from fitkit.report.plots import plot_fit
+
+        plot_fit(fit, plot_path)
+    if as_json:
+        click.echo(fit.to_json())
+        return
+    click.echo(fit_table(fit))
+    if bench_path:
+        click.echo(f"  setup    read from {bench_path}")
+    if plot_path:
+        click.echo(f"  plot     written to {plot_path}")

@@ -1,0 +1,1 @@
+"""Ways to show a result: a readable table, plots, an HTML page."""

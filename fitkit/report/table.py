@@ -1,0 +1,69 @@
+"""The readable table printed by ``fitkit fit``."""
+
+from __future__ import annotations
+
+from fitkit import __version__
+from fitkit.result import QUANTITIES, CircuitFit
+from fitkit.setups import Setup
+
+
+def fit_table(fit: CircuitFit) -> str:
+    """Values with uncertainties, the setup assumed, fit quality, warnings, and the gaps."""
+    s = fit.stats
+    setup = Setup(**fit.setup)
+    lines = [
+        f"fitkit {__version__}: {fit.topology} R-L-C fit of {fit.sweep['source']}",
+        f"  sweep    {_sweep_line(fit.sweep)}",
+        f"  bench    {setup.describe()}",
+        f"  noise    {s.noise}",
+    ]
+    for name in fit.known:
+        q = fit.quantities[name]
+        lines.append(f"  known    {name} = {q.text()} (given, not fitted)")
+    lines.append("")
+    width = max(len(label) for _, label in QUANTITIES.values())
+    for name, (_, label) in QUANTITIES.items():
+        lines.append(f"  {label:<{width}}  {fit.quantities[name].text()}")
+    corr = fit.correlation("L", "C")
+    if corr is not None and "L" not in fit.known and "C" not in fit.known:
+        lines.append(f"  {'correlation of L and C':<{width}}  {corr:+.3f}")
+    lines.append("")
+    verdict = "converged" if s.converged else "did NOT converge"
+    rms = f"{s.rms:.3g} {s.rms_unit}".rstrip()
+    lines.append(
+        f"  fit      {s.used_points} of {s.points} points, reduced chi-square {s.redchi:.2f}, "
+        f"residual RMS {rms}, {verdict}"
+    )
+    if s.outliers_hz:
+        shown = ", ".join(f"{f:.6g} Hz" for f in s.outliers_hz[:5])
+        more = " ..." if len(s.outliers_hz) > 5 else ""
+        lines.append(f"  refit    without {len(s.outliers_hz)} outlying point(s) at {shown}{more}")
+    for text in s.warnings:
+        lines.append(f"  warning: {text}")
+    if fit.undetermined:
+        names = ", ".join(QUANTITIES[u["name"]][1] for u in fit.undetermined)
+        lines.append(f"  not determined by this sweep: {names}")
+        seen = set()
+        for u in fit.undetermined:
+            if u["reason"] in seen:
+                continue
+            seen.add(u["reason"])
+            lines.append(f"    why: {u['reason']}")
+            lines.append(f"    fix: {u['remedy']}")
+    for note in fit.sweep.get("notes", []):
+        lines.append(f"  reader:  {note}")
+    for key, value in fit.sweep.get("metadata", {}).items():
+        lines.append(f"  the file states {key} = {value} (shown for you to confirm; not used)")
+    return "\n".join(lines)
+
+
+def _sweep_line(info: dict) -> str:
+    from fitkit.units import format_quantity
+
+    form = "complex" if info["complex"] else "magnitude only"
+    if info.get("recorded_in_db"):
+        form += ", recorded in dB"
+    return (
+        f"{info['points']} points, {format_quantity(info['f_min_hz'], 'Hz')} to "
+        f"{format_quantity(info['f_max_hz'], 'Hz')}, {info['kind']} ({form})"
+    )
