@@ -131,6 +131,10 @@ def describe_column(position: int, name: str) -> Column:
         unit = lookup_unit(words[-1])
         if unit is not None:
             words.pop()
+    if unit is None and "db" in words:
+        # "dB(S21)", "S21 dB mag": the unit written as a word among the others
+        unit = lookup_unit("dB")
+        words.remove("db")
     wordset = frozenset(words)
     return Column(position, name.strip(), wordset, unit, _tag(text.lower(), wordset))
 

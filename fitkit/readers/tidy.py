@@ -1,0 +1,132 @@
+"""The clean-up every reader shares: drop empty rows, refuse bad numbers, sort, merge
+repeated frequencies; each step said in a note with the lines it touched.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+
+from fitkit.errors import InputError
+from fitkit.sweep import Sweep
+
+DUPLICATES = ("average", "refuse")
+
+
+def line_list(lines: np.ndarray, limit: int = 6) -> str:
+    """'lines 14, 15' or 'lines 3, 9, 12, ... (40 in all)' for a note or message."""
+    shown = ", ".join(str(int(n)) for n in lines[:limit])
+    word = "line" if len(lines) == 1 else "lines"
+    more = f", ... ({len(lines)} in all)" if len(lines) > limit else ""
+    return f"{word} {shown}{more}"
+
+
+def tidy_sweep(
+    freq_hz: np.ndarray,
+    values: np.ndarray,
+    lines: np.ndarray,
+    *,
+    path: Path,
+    kind: str,
+    recorded_in_db: bool,
+    metadata: dict,
+    notes: list,
+    duplicates: str = "average",
+    freq_column: str | int | None = None,
+) -> Sweep:
+    """Make a :class:`Sweep` from parsed columns, cleaning up and saying what was done.
+
+    Parameters
+    ----------
+    freq_hz, values : ndarray
+        Parsed frequencies (Hz) and measured values (SI), NaN where a cell was empty.
+    lines : ndarray of int
+        The file line each row came from, for notes and messages.
+    duplicates : {"average", "refuse"}
+        What to do with a frequency written more than once.
+
+    Raises
+    ------
+    InputError
+        For infinite values, zero or negative frequencies, fewer than two points, or
+        repeated frequencies when ``duplicates="refuse"``.
+    """
+    notes = list(notes)
+    empty = np.isnan(freq_hz) | np.isnan(values.real) | np.isnan(values.imag)
+    if empty.any():
+        kept_after = np.flatnonzero(~empty)
+        last = kept_after[-1] if kept_after.size else -1
+        inner = np.flatnonzero(empty[: last + 1])
+        if inner.size:
+            notes.append(f"dropped {inner.size} blank/NaN row(s) ({line_list(lines[inner])})")
+        freq_hz, values, lines = freq_hz[~empty], values[~empty], lines[~empty]
+    bad = ~np.isfinite(freq_hz) | ~np.isfinite(values)
+    if bad.any():
+        raise InputError(
+            "an infinite value (an overload or a missing reading?)",
+            remedy="delete or repair the row",
+            path=path,
+            line=int(lines[np.argmax(bad)]),
+        )
+    if freq_hz.size and (freq_hz <= 0).any():
+        i = int(np.argmax(freq_hz <= 0))
+        raise InputError(
+            f"frequency {freq_hz[i]:g} Hz is zero or negative",
+            remedy="delete the row, or check the frequency column and its unit",
+            path=path,
+            line=int(lines[i]),
+            column=freq_column,
+        )
+    if freq_hz.size < 2:
+        raise InputError(
+            f"the file holds {freq_hz.size} point(s) of data",
+            remedy="a fit needs a sweep of many points across the resonance",
+            path=path,
+            line=int(lines[0]) if lines.size else None,
+        )
+    steps = np.diff(freq_hz)
+    if (steps < 0).any():
+        if (steps <= 0).all():
+            notes.append("sorted a descending sweep")
+        else:
+            notes.append(f"sorted {int((steps < 0).sum())} out-of-order row(s)")
+        order = np.argsort(freq_hz, kind="stable")
+        freq_hz, values, lines = freq_hz[order], values[order], lines[order]
+    repeated = np.diff(freq_hz) == 0
+    if repeated.any():
+        freq_hz, values = _merge(freq_hz, values, lines, repeated, duplicates, path, notes)
+    return Sweep(
+        freq_hz,
+        values,
+        kind,
+        recorded_in_db=recorded_in_db,
+        source=str(path),
+        metadata=dict(metadata),
+        notes=notes,
+    )
+
+
+def _merge(freq_hz, values, lines, repeated, duplicates, path, notes):
+    if duplicates not in DUPLICATES:
+        raise InputError(
+            f"unknown way {duplicates!r} to treat repeated frequencies",
+            remedy=f"use one of: {', '.join(DUPLICATES)}",
+            path=path,
+        )
+    extra = np.flatnonzero(repeated) + 1
+    if duplicates == "refuse":
+        raise InputError(
+            f"frequency {freq_hz[extra[0]]:g} Hz is written more than once",
+            remedy="delete the repeated rows, or let fitkit average them",
+            path=path,
+            line=int(lines[extra[0]]),
+        )
+    unique, start = np.unique(freq_hz, return_index=True)
+    counts = np.diff(np.append(start, freq_hz.size))
+    sums = np.add.reduceat(values, start)
+    notes.append(
+        f"merged {int((counts > 1).sum())} repeated frequencies (averaged; "
+        f"{line_list(lines[extra])})"
+    )
+    return unique, sums / counts
