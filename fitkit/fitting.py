@@ -86,7 +86,9 @@ def fit_sweep(
     outliers = np.array([], dtype=int)
     if not keep_outliers:
         outliers = problem.outliers(first.params, used, noise_model.domain)
-        used = np.setdiff1d(used, outliers)
+        if outliers.size:
+            used = np.setdiff1d(used, outliers)
+            first = problem.minimize(first.params, used, Noise(noise_model.domain, 1.0, 1.0))
     if noise_model.stated:
         sigmas = noise_model
     else:

@@ -93,6 +93,8 @@ def format_quantity(value: float, unit: str = "", stderr: float | None = None) -
     '98.71 uH +/- 0.42 uH'
     >>> format_quantity(63.04, "", 1.53)
     '63.0 +/- 1.5'
+    >>> format_quantity(47.0, "ohm")
+    '47 ohm'
     """
     if value is None or not math.isfinite(value):
         return f"{value} {unit}".strip()
@@ -120,4 +122,5 @@ def _significant(v: float, digits: int) -> str:
     if v == 0:
         return "0"
     decimals = max(0, digits - 1 - int(math.floor(math.log10(abs(v)))))
-    return f"{v:.{decimals}f}"
+    text = f"{v:.{decimals}f}"
+    return text.rstrip("0").rstrip(".") if "." in text else text
