@@ -8,17 +8,12 @@ import click
 
 from fitkit.bench_file import (
     DEFAULT_NAME,
-    build_setup,
-    find_bench_file,
-    known_values,
-    load_bench_file,
 )
 from fitkit.cli.base import main, reports_errors
 from fitkit.errors import InputError
-from fitkit.fitting import fit_sweep
-from fitkit.readers import read_sweep
 from fitkit.report.table import fit_table
 from fitkit.setups import BENCHES, DISPLAYS, REFERENCES
+from fitkit.workflow import fit_file
 
 
 def bench_options(func):
@@ -72,12 +67,9 @@ def bench_options(func):
     return func
 
 
-def fit_from_options(sweep_path: str, opts: dict, *, noise=None, keep_outliers=False):
-    """Read, set up and fit one sweep from the command line's values."""
-    bench_path = find_bench_file(sweep_path, opts.get("setup_file"))
-    file = load_bench_file(bench_path) if bench_path else {}
-    sweep = read_sweep(sweep_path, columns=file.get("columns") or None)
-    overrides = {
+def overrides_from_options(opts: dict) -> dict:
+    """Setup fields from the bench options as typed (``None`` where not given)."""
+    return {
         "bench": opts.get("bench"),
         "source_ohm": opts.get("source_r"),
         "sense_ohm": opts.get("sense_r"),
@@ -88,10 +80,6 @@ def fit_from_options(sweep_path: str, opts: dict, *, noise=None, keep_outliers=F
         "z0_ohm": opts.get("z0"),
         "relative": opts.get("relative"),
     }
-    setup = build_setup(sweep, file.get("bench"), overrides)
-    known = known_values(file.get("known"), opts.get("known", ()))
-    fit = fit_sweep(sweep, setup, known=known, noise=noise, keep_outliers=keep_outliers)
-    return fit, bench_path
 
 
 @main.command("fit")
@@ -119,7 +107,14 @@ def fit_command(sweep_file, noise, keep_outliers, as_json, plot_path, force, **o
             remedy="choose another name or add --force to replace it",
             path=plot_path,
         )
-    fit, bench_path = fit_from_options(sweep_file, opts, noise=noise, keep_outliers=keep_outliers)
+    fit, bench_path = fit_file(
+        sweep_file,
+        setup_path=opts.pop("setup_file"),
+        overrides=overrides_from_options(opts),
+        known=opts.get("known", ()),
+        noise=noise,
+        keep_outliers=keep_outliers,
+    )
     if plot_path:
         from fitkit.report.plots import plot_fit
 
