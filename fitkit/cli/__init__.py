@@ -1,6 +1,6 @@
 """The command line: each module holds one command that parses, calls the library, prints."""
 
-from fitkit.cli import fit_cmd  # noqa: F401  (registers the command)
+from fitkit.cli import fit_cmd, inspect_cmd  # noqa: F401  (registers the commands)
 from fitkit.cli.base import main
 
 __all__ = ["main"]

@@ -203,13 +203,12 @@ def _metadata(preamble: list[str], delimiter) -> dict:
         text = line.strip().lstrip("#!;%/ ").strip()
         if not text:
             continue
-        cells = [c for c in _split(text, delimiter) if c] if delimiter else []
-        if len(cells) >= 2 and not _is_number(cells[0], "."):
-            found[cells[0].rstrip(":=").strip()] = ", ".join(cells[1:])
-            continue
-        m = re.match(r"([^:=]{1,60}?)\s*[:=]\s*(.+)", text)
-        if m:
-            found[m.group(1).strip()] = m.group(2).strip()
+        m = re.match(r"([^:=,;\t]{1,60}?)\s*[:=,;\t]\s*(.+)", text)
+        if m and not _is_number(m.group(1), "."):
+            value = m.group(2).strip()
+            if delimiter:
+                value = ", ".join(c for c in _split(value, delimiter) if c)
+            found[m.group(1).strip()] = value
     return found
 
 
