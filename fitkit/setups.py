@@ -101,6 +101,13 @@ class Setup:
             value = getattr(self, name)
             if not (math.isfinite(value) and value >= 0):
                 raise SetupError(f"{name} = {value!r} must be a finite value >= 0")
+        if self.amplitude_vrms is not None and not (
+            math.isfinite(self.amplitude_vrms) and self.amplitude_vrms > 0
+        ):
+            raise SetupError(
+                f"the generator amplitude must be above 0 V, not {self.amplitude_vrms!r}",
+                remedy="give it as set on the generator, e.g. '2 Vpp'",
+            )
         if self.z0_ohm <= 0:
             raise SetupError("the reference impedance must be above 0 ohm")
         if self.bench == "divider":
@@ -132,7 +139,7 @@ class Setup:
         one = np.ones_like(w)
         if self.bench == "divider":
             zs = self.sense_ohm / (1.0 + 1j * w * self.probe_f * self.sense_ohm)
-            scale = self.emf_vrms if (self.kind == "volts" and self.emf_vrms) else 1.0
+            scale = self.emf_vrms if (self.kind == "volts" and self.emf_vrms is not None) else 1.0
             rsrc = self.source_ohm if self.source_in_loop else 0.0
             return 0.0 * one, scale * zs, one, rsrc + zs
         if self.bench == "impedance":
