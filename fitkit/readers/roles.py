@@ -46,17 +46,34 @@ class Plan:
     notes: list = field(default_factory=list)
 
     def values(self, cells: dict[str, np.ndarray]) -> tuple[np.ndarray, np.ndarray]:
-        """Frequencies in Hz and measured values in SI from the columns' numbers."""
-        freq = cells["freq"] * self.roles["freq"][1].scale
+        """Frequencies in Hz and measured values in SI from the columns' numbers.
+
+        Each step writes into its own new array (``out=``), so a million-row sweep
+        makes no temporary copies beyond the result.
+        """
+        freq = np.multiply(cells["freq"], self.roles["freq"][1].scale)
         if "real" in self.roles:
             scale = self.roles["real"][1].scale
-            return freq, (cells["real"] + 1j * cells["imag"]) * scale
+            out = np.empty(freq.size, dtype=np.complex128)
+            np.multiply(cells["real"], scale, out=out.real)
+            np.multiply(cells["imag"], scale, out=out.imag)
+            return freq, out
         unit = self.roles["mag"][1]
-        mag = cells["mag"]
-        mag = 10.0 ** (mag / 20.0) * unit.scale if unit.in_db else mag * unit.scale
-        if "phase" in self.roles:
-            return freq, mag * np.exp(1j * cells["phase"] * self.roles["phase"][1].scale)
-        return freq, mag
+        if unit.in_db:
+            mag = np.multiply(cells["mag"], np.log(10.0) / 20.0)
+            np.exp(mag, out=mag)
+            mag *= unit.scale
+        else:
+            mag = np.multiply(cells["mag"], unit.scale)
+        if "phase" not in self.roles:
+            return freq, mag
+        out = np.empty(freq.size, dtype=np.complex128)
+        phase = np.multiply(cells["phase"], self.roles["phase"][1].scale, out=out.real)
+        np.sin(phase, out=out.imag)
+        np.cos(phase, out=out.real)
+        out.real *= mag
+        out.imag *= mag
+        return freq, out
 
 
 def plan_columns(

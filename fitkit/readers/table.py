@@ -29,6 +29,7 @@ _COMMENT = ("#", "!", "//", ";", "%")
 _DIALECTS = (("\t", "."), (";", "."), (",", "."), (None, "."), ("\t", ","), (";", ","), (None, ","))
 _DELIMITER_NAMES = {"\t": "tab", ";": "semicolon", ",": "comma", None: "spaces"}
 _LINE_BREAK = re.compile(r"\r\n|\r|\n")
+_SNIFF_LINES = 120  # enough for a preamble, a header and rows to vote on the dialect
 
 
 @dataclass
@@ -86,6 +87,7 @@ def read_table(
     notes = list(head.notes) + plan.notes
     cells, line_numbers = _parse_rows(path, dialect, plan, notes)
     freq, values = plan.values(cells)
+    del cells  # frees the parser's block before the clean-up makes its own arrays
     freq_col = plan.roles["freq"][0]
     sweep = tidy_sweep(
         freq,
@@ -135,7 +137,7 @@ def _sniff(lines: list[str], encoding: str, complete: bool, path: Path) -> Diale
     """Find the delimiter, decimal mark, header and metadata in the file's first lines."""
     best, best_count = None, 0
     for delimiter, decimal in _DIALECTS:
-        count = sum(1 for ln in lines[:400] if _numeric_fields(ln, delimiter, decimal))
+        count = sum(1 for ln in lines[:_SNIFF_LINES] if _numeric_fields(ln, delimiter, decimal))
         if count > best_count:
             best, best_count = (delimiter, decimal), count
     if best is None:
@@ -213,7 +215,10 @@ def _metadata(preamble: list[str], delimiter) -> dict:
 
 
 def _parse_rows(path: Path, dialect: Dialect, plan: Plan, notes: list):
-    """Parse the rows with pandas; return each role's numbers and the file line of each row."""
+    """Parse the rows with pandas; return each role's numbers and the rows' file lines.
+
+    The lines are an array, or the first row's line when the rows follow one another.
+    """
     wanted = {role: col.position - 1 for role, (col, _) in plan.roles.items()}
     kwargs = dict(
         sep=r"\s+" if dialect.delimiter is None else dialect.delimiter,
@@ -249,7 +254,7 @@ def _parse_rows(path: Path, dialect: Dialect, plan: Plan, notes: list):
         except ValueError:
             return _parse_rows_slowly(path, dialect, plan, wanted, kwargs, notes)
     cells = {role: frame[i].to_numpy(dtype=np.float64) for role, i in wanted.items()}
-    return cells, np.arange(len(frame)) + dialect.first_data_line
+    return cells, dialect.first_data_line
 
 
 def _ragged(exc: Exception, path: Path, dialect: Dialect) -> InputError:

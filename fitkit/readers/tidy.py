@@ -25,7 +25,7 @@ def line_list(lines: np.ndarray, limit: int = 6) -> str:
 def tidy_sweep(
     freq_hz: np.ndarray,
     values: np.ndarray,
-    lines: np.ndarray,
+    lines: np.ndarray | int,
     *,
     path: Path,
     kind: str,
@@ -41,8 +41,9 @@ def tidy_sweep(
     ----------
     freq_hz, values : ndarray
         Parsed frequencies (Hz) and measured values (SI), NaN where a cell was empty.
-    lines : ndarray of int
-        The file line each row came from, for notes and messages.
+    lines : ndarray of int, or int
+        The file line each row came from, for notes and messages; an int is the first
+        row's line when the rows are consecutive lines (saves an array per row).
     duplicates : {"average", "refuse"}
         What to do with a frequency written more than once.
 
@@ -53,7 +54,9 @@ def tidy_sweep(
         repeated frequencies when ``duplicates="refuse"``.
     """
     notes = list(notes)
-    empty = np.isnan(freq_hz) | np.isnan(values.real) | np.isnan(values.imag)
+    empty = np.isnan(freq_hz) | np.isnan(values)
+    if isinstance(lines, (int, np.integer)) and (empty.any() or freq_hz.size < 2):
+        lines = np.arange(freq_hz.size) + lines
     if empty.any():
         kept_after = np.flatnonzero(~empty)
         last = kept_after[-1] if kept_after.size else -1
@@ -67,7 +70,7 @@ def tidy_sweep(
             "an infinite value (an overload or a missing reading?)",
             remedy="delete or repair the row",
             path=path,
-            line=int(lines[np.argmax(bad)]),
+            line=_line(lines, int(np.argmax(bad))),
         )
     if freq_hz.size and (freq_hz <= 0).any():
         i = int(np.argmax(freq_hz <= 0))
@@ -75,7 +78,7 @@ def tidy_sweep(
             f"frequency {freq_hz[i]:g} Hz is zero or negative",
             remedy="delete the row, or check the frequency column and its unit",
             path=path,
-            line=int(lines[i]),
+            line=_line(lines, i),
             column=freq_column,
         )
     if freq_hz.size < 2:
@@ -92,8 +95,10 @@ def tidy_sweep(
         else:
             notes.append(f"sorted {int((steps < 0).sum())} out-of-order row(s)")
         order = np.argsort(freq_hz, kind="stable")
-        freq_hz, values, lines = freq_hz[order], values[order], lines[order]
-    repeated = np.diff(freq_hz) == 0
+        freq_hz, values = freq_hz[order], values[order]
+        lines = lines[order] if isinstance(lines, np.ndarray) else order + lines
+        steps = np.diff(freq_hz)
+    repeated = steps == 0
     if repeated.any():
         freq_hz, values = _merge(freq_hz, values, lines, repeated, duplicates, path, notes)
     return Sweep(
@@ -107,6 +112,10 @@ def tidy_sweep(
     )
 
 
+def _line(lines: np.ndarray | int, row: int) -> int:
+    return int(lines[row]) if isinstance(lines, np.ndarray) else lines + row
+
+
 def _merge(freq_hz, values, lines, repeated, duplicates, path, notes):
     if duplicates not in DUPLICATES:
         raise InputError(
@@ -115,6 +124,8 @@ def _merge(freq_hz, values, lines, repeated, duplicates, path, notes):
             path=path,
         )
     extra = np.flatnonzero(repeated) + 1
+    if not isinstance(lines, np.ndarray):
+        lines = np.arange(freq_hz.size) + lines
     if duplicates == "refuse":
         raise InputError(
             f"frequency {freq_hz[extra[0]]:g} Hz is written more than once",

@@ -65,10 +65,10 @@ def looks_like_touchstone(path: Path) -> bool:
     if re.fullmatch(r"\.(s\d+p|ts)", path.suffix.lower()):
         return True
     try:
-        head = read_head(path).head
+        head = read_head(path, 4096).head
     except InputError:
         return False
-    for line in head.splitlines()[:200]:
+    for line in head.splitlines():
         text = line.split("!", 1)[0].strip()
         if text:
             return text.lower().startswith("[version]") or (
