@@ -200,6 +200,7 @@ def test_missing_units_are_said(tmp_path):
         ("freq (Hz),gain (dB)\n1,2\nfreq (kHz),gain (dB)\n3,4\n", "mixed units", 3),
         ("freq (Hz),gain (dB)\n1,2\n2,3,4\n", "3 cells where the table has 2", 3),
         ("freq (Hz),gain (dB)\n1,2\n2,inf\n", "infinite", 3),
+        ("freq (Hz),gain (dB)\n1,2\n2,7000\n", "infinite", 3),
         ("freq (Hz),Vin (V),Vout (V)\n1,2,3\n2,3,4\n", "both read as the magnitude", 1),
         ("freq (Hz),gain (dB),phase (dB)\n1,2,3\n2,3,4\n", "not a unit for the phase", 1),
     ],

@@ -61,7 +61,8 @@ class Plan:
         unit = self.roles["mag"][1]
         if unit.in_db:
             mag = np.multiply(cells["mag"], np.log(10.0) / 20.0)
-            np.exp(mag, out=mag)
+            with np.errstate(over="ignore"):  # an absurd dB value becomes inf, refused later
+                np.exp(mag, out=mag)
             mag *= unit.scale
         else:
             mag = np.multiply(cells["mag"], unit.scale)
