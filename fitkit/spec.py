@@ -162,7 +162,7 @@ def load_spec(path: str | Path) -> Spec:
     except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
         raise InputError(
             f"not a TOML file ({exc})",
-            remedy="write it as in docs/batch.md: [L] nominal = \"220u\" tolerance = \"5%\"",
+            remedy='write it as in docs/batch.md: [L] nominal = "220u" tolerance = "5%"',
             path=p,
         ) from None
     rule = data.pop("rule", {})
@@ -214,7 +214,7 @@ def _limit(name: str, table, path: Path) -> Limit:
 
 def _limit_values(name: str, quantity: str, unit: str, table: dict) -> Limit:
     def read(key):
-        return parse_quantity(table[key], unit, what=f"{name} {key}") if key in table else None
+        return _number(table[key], unit, f"{name} {key}") if key in table else None
 
     nominal, low, high = read("nominal"), read("min"), read("max")
     if "tolerance" in table:
@@ -222,18 +222,30 @@ def _limit_values(name: str, quantity: str, unit: str, table: dict) -> Limit:
             raise InputError("a tolerance needs a nominal", remedy="add nominal = ...")
         text = str(table["tolerance"]).strip()
         if text.endswith("%"):
-            width = abs(nominal) * parse_quantity(text[:-1], "", what="tolerance") / 100
+            width = abs(nominal) * _number(text[:-1], "", f"{name} tolerance") / 100
         else:
-            width = parse_quantity(text.lstrip("+-"), unit, what=f"{name} tolerance")
+            width = _number(text.lstrip("+-"), unit, f"{name} tolerance")
         low = nominal - width if low is None else low
         high = nominal + width if high is None else high
     if low is None and high is None:
         raise InputError(
-            "no limits given", remedy="add tolerance = \"5%\" to the nominal, or min / max"
+            "no limits given", remedy='add tolerance = "5%" to the nominal, or min / max'
         )
     if low is not None and high is not None and not low <= high:
         raise InputError(f"min {low:g} is above max {high:g}", remedy="swap or correct them")
     return Limit(name, quantity, unit, low, high, nominal)
+
+
+def _number(text, unit: str, what: str) -> float:
+    """A value with an SI prefix; unit-less values (Q, percentages) as plain numbers."""
+    if unit:
+        return parse_quantity(text, unit, what=what)
+    try:
+        return float(text)
+    except (TypeError, ValueError):
+        raise InputError(
+            f"cannot read {what} {text!r} as a number", remedy="write a plain number, e.g. 50"
+        ) from None
 
 
 def decide(value: float | None, stderr: float | None, limit: Limit, spec: Spec) -> Verdict:
@@ -243,10 +255,10 @@ def decide(value: float | None, stderr: float | None, limit: Limit, spec: Spec) 
     --------
     >>> lim = Limit("L", "L", "H", 209e-6, 231e-6)
     >>> decide(230e-6, 1e-6, lim, Spec((lim,))).text()
-    'undecided (228 uH to 232 uH straddles the limit 231 uH)'
+    'undecided (230.0 uH +/- 2.0 uH (k = 2) straddles the limit 231.0 uH)'
     """
     if value is None:
-        return Verdict(NOT_DETERMINED)
+        return Verdict(UNDECIDED, "not determined")
     low = -math.inf if limit.low is None else limit.low
     high = math.inf if limit.high is None else limit.high
     if spec.rule == "simple" or spec.coverage == 0:
@@ -259,15 +271,12 @@ def decide(value: float | None, stderr: float | None, limit: Limit, spec: Spec) 
     if value + band < low or value - band > high:
         return Verdict(FAIL)
     edge = low if value - band < low else high
+    interval = format_quantity(value, limit.unit, band)
+    # the limit printed to the interval's last digit
+    limit_text = format_quantity(edge, limit.unit, band).split(" +/- ")[0]
     return Verdict(
-        UNDECIDED,
-        f"{_short(value - band, limit.unit)} to {_short(value + band, limit.unit)} "
-        f"straddles the limit {_short(edge, limit.unit)}",
+        UNDECIDED, f"{interval} (k = {spec.coverage:g}) straddles the limit {limit_text}"
     )
-
-
-def _short(value: float, unit: str) -> str:
-    return format_quantity(value, unit)
 
 
 def judge(values: dict, spec: Spec) -> UnitVerdicts:
