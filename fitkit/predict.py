@@ -1,0 +1,618 @@
+"""Predictions from a fitted series R-L-C: retune, rejection of carriers, affordable loss.
+
+One chain response serves every placement. The circuit sits either in series between a
+source resistance and a load, or across the line between them (a trap); the load may have
+a capacitance across it (a probe, a receiver's input). With ``Yl`` the load admittance and
+``Zc = R + j (w L - 1/(w C))`` the circuit, the voltage transfer from the source EMF to the
+load is ``1 / D`` with::
+
+    series:  D = 1 + (Rsource + Zc) Yl
+    shunt:   D = 1 + Rsource (1/Zc + Yl)
+
+so the power ratio of the wanted carrier to an unwanted one at the output, at equal drive,
+is ``|D(f_unwanted)|^2 / |D(f_wanted)|^2``. For a series circuit in a resistive loop this is
+the textbook ``1 + Q_L^2 (f/f0 - f0/f)^2`` with ``Q_L = w0 L / (R + Rsource + Rload)``.
+
+``D`` is computed in real arithmetic on (real, imaginary) pairs, because ``uncertainties``
+has no complex numbers: the same code then runs on floats, numpy arrays (plots) and
+correlated ``uncertainties`` values (error bars that keep the L-C correlation).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+from scipy.optimize import brentq
+from uncertainties import UFloat, umath, wrap
+
+from fitkit.errors import PredictionError
+from fitkit.result import COMPONENTS, CircuitFit
+from fitkit.setups import Setup
+from fitkit.units import format_quantity
+
+PLACEMENTS = ("series", "shunt")
+TWO_PI = 2.0 * math.pi
+
+
+@dataclass(frozen=True)
+class _Pair:
+    """A complex number as two real parts, for values numpy's complex type cannot hold."""
+
+    re: object
+    im: object = 0.0
+
+    def __add__(self, other):
+        o = _as_pair(other)
+        return _Pair(self.re + o.re, self.im + o.im)
+
+    __radd__ = __add__
+
+    def __mul__(self, other):
+        o = _as_pair(other)
+        return _Pair(self.re * o.re - self.im * o.im, self.re * o.im + self.im * o.re)
+
+    __rmul__ = __mul__
+
+    def __rtruediv__(self, other):
+        o = _as_pair(other)
+        d = self.abs2()
+        return _Pair((o.re * self.re + o.im * self.im) / d, (o.im * self.re - o.re * self.im) / d)
+
+    def abs2(self):
+        return self.re * self.re + self.im * self.im
+
+
+def _as_pair(x) -> _Pair:
+    return x if isinstance(x, _Pair) else _Pair(x, 0.0)
+
+
+@dataclass(frozen=True)
+class Chain:
+    """Where the circuit sits in service.
+
+    Attributes
+    ----------
+    placement : str
+        ``"series"`` (between source and load) or ``"shunt"`` (across the line).
+    source_ohm : float
+        Resistance of the source driving the chain.
+    load_ohm : float or None
+        Resistance of the load; ``None`` for no resistive load (shunt placement only).
+    load_f : float
+        Capacitance across the load (probe, input capacitance).
+    origin : str
+        Where the description came from, for the report.
+    """
+
+    placement: str = "series"
+    source_ohm: float = 0.0
+    load_ohm: float | None = None
+    load_f: float = 0.0
+    origin: str = "as described"
+
+    def __post_init__(self) -> None:
+        if self.placement not in PLACEMENTS:
+            raise PredictionError(
+                f"unknown placement {self.placement!r}", remedy="choose series or shunt"
+            )
+        for name in ("source_ohm", "load_f"):
+            value = getattr(self, name)
+            if not (math.isfinite(value) and value >= 0):
+                raise PredictionError(
+                    f"the chain's {name} = {value!r} must be a finite value >= 0",
+                    remedy="give a resistance or capacitance of 0 or more",
+                )
+        if self.load_ohm is not None and not (math.isfinite(self.load_ohm) and self.load_ohm > 0):
+            raise PredictionError(
+                f"the chain's load resistance {self.load_ohm!r} ohm must be above 0",
+                remedy="give the load's input resistance, e.g. 50 or 2k",
+            )
+        if self.placement == "series" and self.load_ohm is None:
+            raise PredictionError(
+                "a series circuit needs a load resistance to deliver to",
+                remedy="give the load resistance of the chain (e.g. the receiver's input)",
+            )
+        if self.placement == "shunt" and self.source_ohm == 0:
+            raise PredictionError(
+                "a circuit across a line driven from 0 ohm cannot change the output",
+                remedy="give the source resistance that drives the line",
+            )
+
+    @property
+    def loop_ohm(self) -> float:
+        """Resistance the chain puts in series with the circuit (sets the loaded Q)."""
+        if self.placement == "series":
+            return self.source_ohm + self.load_ohm
+        if self.load_ohm is None:
+            return self.source_ohm
+        return self.source_ohm * self.load_ohm / (self.source_ohm + self.load_ohm)
+
+    def describe(self) -> str:
+        """One line: placement and resistances."""
+        where = "in series between" if self.placement == "series" else "across the line between"
+        load = "no load" if self.load_ohm is None else format_quantity(self.load_ohm, "ohm")
+        text = f"{where} source {format_quantity(self.source_ohm, 'ohm')} and load {load}"
+        if self.load_f:
+            text += f" || {format_quantity(self.load_f, 'F')}"
+        return f"{text} ({self.origin})"
+
+    def to_dict(self) -> dict:
+        return {
+            "placement": self.placement,
+            "source_ohm": self.source_ohm,
+            "load_ohm": self.load_ohm,
+            "load_f": self.load_f,
+            "loop_ohm": self.loop_ohm,
+            "origin": self.origin,
+        }
+
+
+def chain_from_setup(setup: dict) -> Chain:
+    """The chain the circuit sat in on the bench, from a fit's ``setup`` dictionary.
+
+    Raises
+    ------
+    PredictionError
+        For benches with no chain (an impedance or reflection reading).
+    """
+    s = Setup(**setup)
+    origin = "the bench setup"
+    if s.bench == "divider":
+        source = s.source_ohm if s.source_in_loop else 0.0
+        return Chain("series", source, s.sense_ohm, s.probe_f, origin)
+    if s.bench in ("series-through", "shunt-through"):
+        return Chain(s.bench.split("-")[0], s.z0_ohm, s.z0_ohm, 0.0, origin)
+    raise PredictionError(
+        f"a {s.bench} bench reads the circuit alone, with no chain around it",
+        remedy="describe the chain in service: placement, source and load resistance",
+    )
+
+
+def values_from_fit(fit: CircuitFit) -> dict:
+    """Correlated R, L and C of a fit, as ``uncertainties`` values.
+
+    Raises
+    ------
+    PredictionError
+        When the fit did not determine one of them.
+    """
+    missing = [n for n in COMPONENTS if not fit[n].determined]
+    if missing:
+        why = fit[missing[0]].reason
+        raise PredictionError(
+            f"the fit did not determine {', '.join(missing)}" + (f" ({why})" if why else ""),
+            remedy="fit again with the missing value given (--known L=220u+-1u), "
+            "or type R, L and C with --value",
+        )
+    u = fit.correlated()
+    return {n: u[n] for n in COMPONENTS}
+
+
+def check_values(values: dict) -> dict:
+    """Refuse component values no circuit has; return them unchanged."""
+    for name, low_ok in (("R", True), ("L", False), ("C", False)):
+        v = _nominal(values[name])
+        if not math.isfinite(v) or v < 0 or (v == 0 and not low_ok):
+            raise PredictionError(
+                f"{name} = {v!r} is not a component value",
+                remedy=f"give {name} above 0" + (" (R may be 0)" if low_ok else ""),
+            )
+    return values
+
+
+def check_hz(freq_hz: float, what: str) -> float:
+    """Refuse a frequency that is zero, negative or not finite; return it as float."""
+    f = float(freq_hz)
+    if not (math.isfinite(f) and f > 0):
+        raise PredictionError(
+            f"the {what} {format_quantity(f, 'Hz')} is not a frequency above 0 Hz",
+            remedy="give a frequency above 0 (an offset must land above 0 Hz)",
+        )
+    return f
+
+
+def _denominator_abs2(freq_hz, values: dict, chain: Chain):
+    """``|D|^2`` of the chain (see the module docstring); floats, arrays or ufloats."""
+    w = TWO_PI * freq_hz
+    zc = _Pair(values["R"], w * values["L"] - 1.0 / (w * values["C"]))
+    yl = _Pair(0.0 if chain.load_ohm is None else 1.0 / chain.load_ohm, w * chain.load_f)
+    if chain.placement == "series":
+        d = 1.0 + (chain.source_ohm + zc) * yl
+    else:
+        d = 1.0 + chain.source_ohm * (1.0 / zc + yl)
+    return d.abs2()
+
+
+def rejection_db(freq_hz: float, wanted_hz: float, values: dict, chain: Chain):
+    """Rejection of a carrier at ``freq_hz`` relative to the wanted one, in dB, equal drive.
+
+    Parameters
+    ----------
+    freq_hz, wanted_hz : float
+        The unwanted and the wanted carrier.
+    values : dict
+        ``R``, ``L``, ``C`` as floats or (correlated) ``uncertainties`` values.
+    chain : Chain
+        Where the circuit sits.
+
+    Returns
+    -------
+    float or UFloat
+        ``10 log10(P_wanted / P_unwanted)`` at the load.
+
+    Examples
+    --------
+    >>> chain = Chain("series", 0.0, 50.0)
+    >>> round(rejection_db(1.01e6, 1e6, {"R": 0.0, "L": 7.957747e-4, "C": 3.183099e-11},
+    ...                    chain), 2)
+    6.96
+    """
+    ratio = _denominator_abs2(freq_hz, values, chain) / _denominator_abs2(
+        wanted_hz, values, chain
+    )
+    return 10.0 * umath.log10(ratio)
+
+
+def response_db(freq_hz: np.ndarray, wanted_hz: float, values: dict, chain: Chain) -> np.ndarray:
+    """The chain's response in dB relative to the wanted carrier (nominal values, arrays)."""
+    nominal = {n: _nominal(v) for n, v in values.items()}
+    f = np.asarray(freq_hz, dtype=np.float64)
+    ratio = _denominator_abs2(wanted_hz, nominal, chain) / _denominator_abs2(f, nominal, chain)
+    return 10.0 * np.log10(ratio)
+
+
+def tuning_c(tune_hz: float, l_h, chain: Chain):
+    """The capacitance that tunes the chain to ``tune_hz``: ``C = 1 / (w (w L + X))``.
+
+    ``X`` is the reactance the chain adds in the loop: for series placement the load's own
+    reactance (a capacitance across the load makes it slightly negative), so the loop
+    reactance is zero at ``tune_hz``; for shunt placement 0, so the trap's null (the
+    circuit's own resonance, ``C = 1/(w^2 L)``) sits there.
+
+    Raises
+    ------
+    PredictionError
+        When no capacitance can tune the chain there.
+    """
+    w = TWO_PI * check_hz(tune_hz, "tuning frequency")
+    extra = 0.0
+    if chain.placement == "series" and chain.load_f:
+        load = 1.0 / _Pair(1.0 / chain.load_ohm, w * chain.load_f)
+        extra = load.im
+    needed = w * l_h + extra
+    if _nominal(needed) <= 0:
+        raise PredictionError(
+            f"no capacitance tunes this chain to {format_quantity(tune_hz, 'Hz')}: the "
+            "load's capacitance outweighs the coil there",
+            remedy="lower the load capacitance or use a larger L",
+        )
+    return 1.0 / (w * needed)
+
+
+def resonance_hz(l_h, c_f):
+    """The circuit's own resonance ``1 / (2 pi sqrt(L C))``."""
+    return 1.0 / (TWO_PI * umath.sqrt(l_h * c_f))
+
+
+def loaded_q(values: dict, chain: Chain):
+    """``Q_L = w0 L / (R + chain.loop_ohm)`` at the circuit's own resonance."""
+    w0 = TWO_PI * resonance_hz(values["L"], values["C"])
+    return w0 * values["L"] / (values["R"] + chain.loop_ohm)
+
+
+def needed_q(power_ratio: float, freq_hz: float, f0_hz: float) -> float:
+    """Loaded Q a single tuned circuit needs for ``power_ratio`` at ``freq_hz``.
+
+    ``sqrt(a - 1) / |y|`` with ``y = f/f0 - f0/f`` (series circuit in a resistive loop).
+
+    Examples
+    --------
+    >>> round(needed_q(100.0, 1.01e6, 1e6))
+    500
+    """
+    y = freq_hz / f0_hz - f0_hz / freq_hz
+    return math.sqrt(power_ratio - 1.0) / abs(y)
+
+
+def check_capacitor(c_f, c_range_f: tuple, tune_hz: float, l_h) -> None:
+    """Refuse a tuning capacitance outside the capacitor's range, naming what it reaches."""
+    c_min, c_max = _check_range(c_range_f)
+    c = _nominal(c_f)
+    if c_min <= c <= c_max:
+        return
+    f_lo, f_hi = (_nominal(resonance_hz(l_h, x)) for x in (c_max, c_min))
+    side = "above the capacitor's maximum" if c > c_max else "below the capacitor's minimum"
+    raise PredictionError(
+        f"tuning to {format_quantity(tune_hz, 'Hz')} needs C = {format_quantity(c, 'F')}, "
+        f"{side}; the range {format_quantity(c_min, 'F')} to {format_quantity(c_max, 'F')} "
+        f"tunes this L from about {format_quantity(f_lo, 'Hz')} to {format_quantity(f_hi, 'Hz')}",
+        remedy="choose a carrier in that span, a capacitor that reaches "
+        f"{format_quantity(c, 'F')}, or another coil",
+    )
+
+
+def _check_range(pair: tuple, unit: str = "F") -> tuple:
+    lo, hi = (float(x) for x in pair)
+    if not (math.isfinite(lo) and math.isfinite(hi) and 0 < lo < hi):
+        raise PredictionError(
+            f"the range {lo!r} to {hi!r} {unit} is not a range of positive values",
+            remedy="give the smaller value first, both above 0, e.g. 20p..500p",
+        )
+    return lo, hi
+
+
+@dataclass(frozen=True)
+class BandCover:
+    """Whether a capacitor range tunes a band, and the range that would."""
+
+    band_hz: tuple
+    c_needed_f: tuple  # (at the top of the band, at the bottom): ufloats
+    ratio_needed: float
+    ratio_given: float | None
+    covered: bool | None
+
+
+def band_cover(band_hz: tuple, l_h, chain: Chain, c_range_f: tuple | None = None) -> BandCover:
+    """The capacitance a band needs with this L, and whether ``c_range_f`` covers it.
+
+    A range covers the band when it reaches both ends, which needs at least
+    ``Cmax/Cmin >= (fmax/fmin)^2``.
+    """
+    f_lo, f_hi = _check_range(band_hz, "Hz")
+    needed = (tuning_c(f_hi, l_h, chain), tuning_c(f_lo, l_h, chain))
+    given = covered = None
+    if c_range_f is not None:
+        c_min, c_max = _check_range(c_range_f)
+        given = c_max / c_min
+        covered = c_min <= _nominal(needed[0]) and _nominal(needed[1]) <= c_max
+    return BandCover((f_lo, f_hi), needed, (f_hi / f_lo) ** 2, given, covered)
+
+
+@dataclass(frozen=True)
+class Carrier:
+    """An unwanted carrier and its level relative to the wanted one (dB, + is stronger)."""
+
+    freq_hz: float
+    level_db: float = 0.0
+    label: str = ""
+
+
+@dataclass(frozen=True)
+class CarrierResult:
+    """Rejection of one carrier and the signal-to-interference ratio it leaves."""
+
+    carrier: Carrier
+    rejection_db: UFloat
+
+    @property
+    def sir_db(self) -> UFloat:
+        return self.rejection_db - self.carrier.level_db
+
+
+@dataclass(frozen=True)
+class LossLimit:
+    """The largest loss resistance, and smallest loaded Q, that meet a rejection."""
+
+    required_db: float
+    binding: Carrier
+    r_max_ohm: UFloat
+    q_loaded_min: UFloat
+    per_carrier: list = field(default_factory=list)  # (Carrier, r_max_ohm) pairs
+
+
+def loss_limit(
+    values: dict, wanted_hz: float, carriers: list, required_db: float, chain: Chain
+) -> LossLimit:
+    """The largest R (smallest loaded Q) still giving ``required_db`` against every carrier.
+
+    The carrier needing the smallest R binds. R is found on the full chain response (so
+    any placement works); its uncertainty comes from L and C through their correlation.
+
+    Raises
+    ------
+    PredictionError
+        For a required rejection of 0 dB or less, or one that even R = 0 cannot give.
+    """
+    if not (math.isfinite(required_db) and required_db > 0):
+        raise PredictionError(
+            f"a required rejection of {required_db} dB asks for nothing",
+            remedy="give the rejection needed, in dB above 0",
+        )
+    if not carriers:
+        raise PredictionError(
+            "a required rejection needs carriers to hold it against",
+            remedy="give the unwanted carriers (absolute or as offsets)",
+        )
+    per = []
+    for carrier in carriers:
+        solve = wrap(_r_max_solver(carrier, wanted_hz, required_db, chain))
+        per.append((carrier, solve(values["L"], values["C"])))
+    binding, r_max = min(per, key=lambda pair: _nominal(pair[1]))
+    w0 = TWO_PI * resonance_hz(values["L"], values["C"])
+    q_min = w0 * values["L"] / (r_max + chain.loop_ohm)
+    return LossLimit(required_db, binding, r_max, q_min, per)
+
+
+def _r_max_solver(carrier: Carrier, wanted_hz: float, required_db: float, chain: Chain):
+    def margin(r_ohm, l_h, c_f):
+        v = {"R": r_ohm, "L": l_h, "C": c_f}
+        return rejection_db(carrier.freq_hz, wanted_hz, v, chain) - required_db
+
+    def solve(l_h: float, c_f: float) -> float:
+        best = margin(0.0, l_h, c_f)
+        if best < 0:
+            raise PredictionError(
+                f"even a lossless circuit (R = 0) in this chain rejects the carrier at "
+                f"{format_quantity(carrier.freq_hz, 'Hz')} by only {best + required_db:.1f} dB, "
+                f"not the {required_db:g} dB required",
+                remedy="raise the loaded Q: a larger L with a smaller C, less source and "
+                "load resistance in the loop (tap the coil or couple through a transformer), "
+                "or a second tuned circuit",
+            )
+        high = max(chain.loop_ohm, 1.0)
+        for _ in range(200):
+            if margin(high, l_h, c_f) < 0:
+                return brentq(margin, 0.0, high, args=(l_h, c_f), xtol=1e-12, rtol=1e-13)
+            high *= 4.0
+        raise PredictionError(  # the chain rejects the carrier whatever the circuit's loss
+            f"the carrier at {format_quantity(carrier.freq_hz, 'Hz')} is rejected by "
+            f"{required_db:g} dB whatever the circuit's loss",
+            remedy="no limit on the loss follows from this carrier; drop it from the list",
+        )
+
+    return solve
+
+
+@dataclass(frozen=True)
+class Prediction:
+    """Everything ``fitkit predict`` answers, with uncertainties carried through."""
+
+    values: dict  # R, L and C as used (C retuned, as fitted, or as typed)
+    c_origin: str
+    chain: Chain
+    wanted_hz: float
+    tune_hz: float
+    q_loaded: UFloat
+    carriers: list
+    band: BandCover | None = None
+    limit: LossLimit | None = None
+    c_range_f: tuple | None = None
+
+    def to_dict(self) -> dict:
+        out = {
+            "values": {n: _udict(self.values[n], u) for n, u in zip(COMPONENTS, "ohm H F".split())},
+            "c_origin": self.c_origin,
+            "chain": self.chain.to_dict(),
+            "wanted_hz": self.wanted_hz,
+            "tune_hz": self.tune_hz,
+            "q_loaded": _udict(self.q_loaded, ""),
+            "c_range_f": None if self.c_range_f is None else list(self.c_range_f),
+            "carriers": [
+                {
+                    "freq_hz": r.carrier.freq_hz,
+                    "offset_hz": r.carrier.freq_hz - self.wanted_hz,
+                    "level_db": r.carrier.level_db,
+                    "label": r.carrier.label,
+                    "rejection_db": _udict(r.rejection_db, "dB"),
+                    "sir_db": _udict(r.sir_db, "dB"),
+                }
+                for r in self.carriers
+            ],
+            "band": None,
+            "loss_limit": None,
+        }
+        if self.band is not None:
+            b = self.band
+            out["band"] = {
+                "band_hz": list(b.band_hz),
+                "c_needed_f": [_udict(c, "F") for c in b.c_needed_f],
+                "ratio_needed": b.ratio_needed,
+                "ratio_given": b.ratio_given,
+                "covered": b.covered,
+            }
+        if self.limit is not None:
+            lim = self.limit
+            out["loss_limit"] = {
+                "required_db": lim.required_db,
+                "binding_freq_hz": lim.binding.freq_hz,
+                "r_max_ohm": _udict(lim.r_max_ohm, "ohm"),
+                "q_loaded_min": _udict(lim.q_loaded_min, ""),
+                "met_now": _nominal(self.values["R"]) <= _nominal(lim.r_max_ohm),
+            }
+        return out
+
+
+def predict(
+    values: dict,
+    chain: Chain,
+    *,
+    wanted_hz: float | None = None,
+    tune_hz: float | None = None,
+    retune: bool = True,
+    carriers: tuple = (),
+    c_range_f: tuple | None = None,
+    band_hz: tuple | None = None,
+    required_db: float | None = None,
+) -> Prediction:
+    """Retune, reject and invert in one call: what ``fitkit predict`` prints.
+
+    Parameters
+    ----------
+    values : dict
+        ``R``, ``L``, ``C``: floats or correlated ``uncertainties`` values
+        (:func:`values_from_fit`).
+    chain : Chain
+        Where the circuit sits in service (:func:`chain_from_setup` for the bench).
+    wanted_hz : float, optional
+        The wanted carrier; default the circuit's own resonance (no retune).
+    tune_hz : float, optional
+        Where to tune, when not on the wanted carrier (a trap on an interferer).
+    retune : bool
+        Replace C by the value tuning the chain to ``tune_hz`` (or the wanted carrier).
+    carriers : tuple of Carrier
+        The unwanted carriers.
+    c_range_f : (float, float), optional
+        The tuning capacitor's range; the tuning C must lie in it.
+    band_hz : (float, float), optional
+        Band edges, to check the capacitor range against.
+    required_db : float, optional
+        A rejection every carrier must get: gives the loss limit.
+
+    Returns
+    -------
+    Prediction
+
+    Raises
+    ------
+    PredictionError
+        For frequencies at or below 0 Hz, a carrier out of the capacitor's reach, or a
+        required rejection no loss can give; the message names the value and the fix.
+
+    Examples
+    --------
+    >>> p = predict({"R": 5.0, "L": 220e-6, "C": 1e-9}, Chain("series", 50.0, 50.0),
+    ...             wanted_hz=999e3, carriers=(Carrier(1008e3),))
+    >>> round(p.carriers[0].rejection_db, 2)
+    0.24
+    """
+    values = check_values(dict(values))
+    own_hz = _nominal(resonance_hz(values["L"], values["C"]))
+    wanted = own_hz if wanted_hz is None else check_hz(wanted_hz, "wanted carrier")
+    tune = wanted if tune_hz is None else check_hz(tune_hz, "tuning frequency")
+    origin = "as given"
+    if retune and (wanted_hz is not None or tune_hz is not None):
+        values["C"] = tuning_c(tune, values["L"], chain)
+        origin = "retuned"
+        if c_range_f is not None:
+            check_capacitor(values["C"], c_range_f, tune, values["L"])
+    for carrier in carriers:
+        check_hz(carrier.freq_hz, f"carrier {carrier.label or ''}".strip())
+    results = [
+        CarrierResult(c, rejection_db(c.freq_hz, wanted, values, chain)) for c in carriers
+    ]
+    band = None if band_hz is None else band_cover(band_hz, values["L"], chain, c_range_f)
+    limit = None
+    if required_db is not None:
+        limit = loss_limit(values, wanted, list(carriers), required_db, chain)
+    return Prediction(
+        values,
+        origin,
+        chain,
+        wanted,
+        tune,
+        loaded_q(values, chain),
+        results,
+        band,
+        limit,
+        None if c_range_f is None else _check_range(c_range_f),
+    )
+
+
+def _udict(x, unit: str) -> dict:
+    return {"value": _nominal(x), "stderr": float(getattr(x, "std_dev", 0.0)), "unit": unit}
+
+
+def _nominal(x) -> float:
+    return float(getattr(x, "nominal_value", x))
