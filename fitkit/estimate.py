@@ -1,92 +1,125 @@
-"""Closed-form starting values for a series R-L-C seen through a bench setup.
+"""Closed-form starting values, for every topology seen through every bench setup.
 
-Two exact linearisations, then a cheap search for the one value they leave open:
+Exact linearisations first, then a cheap search for what they leave open:
 
-- complex, calibrated data: invert the setup to Z(f) and solve the linear least squares
-  ``Im Z = w L - (1/C) / w``, ``Re Z = R``, weighting each point by how well the
-  inversion conditions it;
+- complex, calibrated data: invert the setup to Z(f) and solve a linear least squares,
+  ``Im Z = w L - (1/C) / w`` for a series circuit, ``Im Y = w C - (1/L) / w`` on the
+  admittance for a tank, each point weighted by how well the inversion conditions it;
 - magnitude data (or an uncalibrated scale): every bench map leaves a quantity T of the
-  measured magnitude that equals ``|loop impedance|^2`` up to a constant, so
-  ``T = a + b w^2 + c / w^2`` exactly, linear in (a, b, c), which gives f0 and the
-  loaded Q. The loop resistance then follows from a one-dimensional search.
+  measured magnitude that equals ``|loop impedance|^2`` up to a constant, so for a series
+  circuit ``T = a + b w^2 + c / w^2`` exactly, linear in (a, b, c), giving f0 and the
+  loaded Q; a tank read on an impedance analyser gives the same form in ``1/|Z|^2``.
+  The scale resistance then follows from a one-dimensional search.
 
-The peak of T and its half-power width are the fallback when the linearisation fails.
+The extremum of T and its half-power width are the fallback when a linearisation fails;
+a tank seen only in magnitude through a fixture gets a few Q values tried from there.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 from scipy.optimize import minimize_scalar
 
-from fitkit.circuits import TWO_PI, series_rlc
+from fitkit.circuits import TWO_PI
 from fitkit.setups import Setup
 from fitkit.sweep import Sweep
+from fitkit.topologies import SERIES, Topology, loss_factor
 
 
 @dataclass(frozen=True)
 class Start:
-    """Where the refinement starts: resonance, loaded Q, loop resistance, scale."""
+    """Where the refinement starts, in the topology's internal terms."""
 
     f0_hz: float
-    q_loaded: float
-    loop_ohm: float
+    q: float
+    scale_ohm: float
     gain: float
     method: str
-    mirror_loop_ohm: float | None = None
+    extras: dict = field(default_factory=dict)
+    mirror_scale_ohm: float | None = None
 
 
-def circuit_values(setup: Setup, f0_hz: float, q_loaded: float, loop_ohm: float) -> tuple:
-    """R, L, C of a series circuit from its resonance, loaded Q and loop resistance."""
-    w0 = TWO_PI * f0_hz
-    l_h = q_loaded * loop_ohm / w0
-    c_f = 1.0 / (w0 * q_loaded * loop_ohm)
-    return loop_ohm - setup.external_ohm, l_h, c_f
+def predicted(
+    setup: Setup,
+    freq_hz: np.ndarray,
+    f0_hz,
+    q,
+    scale_ohm,
+    *,
+    topology: Topology = SERIES,
+    extras: dict | None = None,
+    gain: float = 1.0,
+    skin_above_hz: float | None = None,
+) -> np.ndarray:
+    """What the instrument would read for a circuit with these internal values."""
+    comps = topology.components(setup, f0_hz, q, scale_ohm, extras or {})
+    factor = loss_factor(freq_hz, f0_hz, skin_above_hz)
+    return gain * setup.response(topology.impedance(freq_hz, comps, factor), freq_hz)
 
 
-def predicted(setup: Setup, freq_hz: np.ndarray, f0_hz, q_loaded, loop_ohm, gain=1.0):
-    """The measured quantity a series circuit with these values would give."""
-    r, l_h, c_f = circuit_values(setup, f0_hz, q_loaded, loop_ohm)
-    return gain * setup.response(series_rlc(freq_hz, r, l_h, c_f), freq_hz)
-
-
-def estimate_start(sweep: Sweep, setup: Setup) -> Start:
-    """Closed-form start for a series R-L-C fit (see the module notes)."""
+def estimate_start(
+    sweep: Sweep,
+    setup: Setup,
+    topology: Topology = SERIES,
+    skin_above_hz: float | None = None,
+) -> Start:
+    """Closed-form start for a fit of ``topology`` (see the module notes)."""
     f = sweep.freq_hz
     if sweep.is_complex and setup.is_calibrated:
-        start = _from_impedance(sweep, setup)
+        start = _from_impedance(sweep, setup, topology)
         if start is not None:
             return start
-    f0, ql, method = _from_magnitude(f, np.abs(sweep.values), setup)
+    f0, q, method = _from_magnitude(f, np.abs(sweep.values), setup, topology)
+    extras = _extras_guess(f, np.abs(sweep.values), setup, topology, f0)
+    search = _Search(sweep, setup, topology, extras, skin_above_hz)
+    if topology.name == "tank" and setup.bench != "impedance":
+        q, method = search.best_q(f0, q), method + ", Q tried on a grid"
     if setup.is_calibrated:
-        loop, mirror = _search_loop(sweep, setup, f0, ql)
-        return Start(f0, ql, loop, 1.0, method, mirror)
-    loop = max(setup.external_ohm, 1.0)
-    model = predicted(setup, f, f0, ql, loop)
-    gain = _best_gain(model, sweep.values)
-    return Start(f0, ql, loop, gain, method)
+        scale, mirror = search.scale(f0, q)
+        return Start(f0, q, scale, 1.0, method, extras, mirror)
+    scale = max(setup.external_ohm, 1.0)
+    model = predicted(setup, f, f0, q, scale, topology=topology, extras=extras)
+    return Start(f0, q, scale, _best_gain(model, sweep.values), method, extras)
 
 
-def _from_impedance(sweep: Sweep, setup: Setup) -> Start | None:
+def _linear_fit(w: np.ndarray, target: np.ndarray, weight: np.ndarray) -> tuple:
+    """Least squares for ``target = p w - s / w``, columns scaled to order one."""
+    wc = np.sqrt(w[0] * w[-1])
+    x = w / wc
+    design = np.column_stack([x, -1.0 / x]) * weight[:, None]
+    (p1, p2), *_ = np.linalg.lstsq(design, target * weight, rcond=None)
+    return p1 / wc, p2 * wc
+
+
+def _from_impedance(sweep: Sweep, setup: Setup, topology: Topology) -> Start | None:
     f = sweep.freq_hz
     w = TWO_PI * f
     z, noise_gain = setup.impedance_from(sweep.values, f)
-    ok = np.isfinite(z) & np.isfinite(noise_gain) & (noise_gain > 0)
+    ok = np.isfinite(z) & np.isfinite(noise_gain) & (noise_gain > 0) & (z != 0)
     if ok.sum() < 3:
         return None
+    if topology.name == "tank":
+        y = 1.0 / z[ok]
+        weight = np.abs(z[ok]) ** 2 / noise_gain[ok]
+        c_f, inv_l = _linear_fit(w[ok], y.imag, weight)
+        if not (c_f > 0 and inv_l > 0):
+            return None
+        w0 = np.sqrt(inv_l / c_f)
+        near = np.argmin(np.abs(w[ok] - w0))
+        r_dynamic = 1.0 / max(y.real[near], 1e-12)
+        q = max(r_dynamic * w0 * c_f, 0.5)
+        return Start(w0 / TWO_PI, q, r_dynamic, 1.0, "linear least squares on Y(f)")
     weight = 1.0 / noise_gain[ok]
-    wc = np.sqrt(w[0] * w[-1])  # columns scaled to order one: w/wc and wc/w
-    x = w[ok] / wc
-    design = np.column_stack([x, -1.0 / x]) * weight[:, None]
-    (p1, p2), *_ = np.linalg.lstsq(design, z[ok].imag * weight, rcond=None)
-    l_h, inv_c = p1 / wc, p2 * wc
+    l_h, inv_c = _linear_fit(w[ok], z[ok].imag, weight)
     if not (l_h > 0 and inv_c > 0):
         return None
     r = float(np.sum(z[ok].real * weight**2) / np.sum(weight**2))
     w0 = np.sqrt(inv_c / l_h)
     loop = max(r, 1e-6 * w0 * l_h) + setup.external_ohm
-    return Start(w0 / TWO_PI, w0 * l_h / loop, loop, 1.0, "linear least squares on Z(f)")
+    extras = _extras_guess(f, np.abs(sweep.values), setup, topology, w0 / TWO_PI, z)
+    return Start(w0 / TWO_PI, w0 * l_h / loop, loop, 1.0, "linear least squares on Z(f)", extras)
 
 
 def loop_power_transform(setup: Setup, magnitude: np.ndarray) -> np.ndarray:
@@ -100,25 +133,32 @@ def loop_power_transform(setup: Setup, magnitude: np.ndarray) -> np.ndarray:
         return 1.0 / (1.0 - magnitude**2)
 
 
-def _from_magnitude(f: np.ndarray, magnitude: np.ndarray, setup: Setup) -> tuple:
-    wc = TWO_PI * np.sqrt(f[0] * f[-1])
-    x = f / np.sqrt(f[0] * f[-1])  # w/wc: columns of order one
+def _from_magnitude(f, magnitude, setup: Setup, topology: Topology) -> tuple:
     t = loop_power_transform(setup, magnitude)
+    if topology.name == "tank":
+        # a tank's loop power peaks at resonance; on an impedance analyser 1/|Z|^2 is the
+        # tank's |Y|^2, the same quadratic form as a series circuit's |Z|^2
+        t = 1.0 / t
+        if setup.bench != "impedance":
+            return _from_extremum(f, t)
     ok = np.isfinite(t) & (t > 0)
     if ok.sum() >= 3:
+        wc = TWO_PI * np.sqrt(f[0] * f[-1])
+        x = f / np.sqrt(f[0] * f[-1])
         # relative least squares: each row divided by T, as noise in T scales with T
         design = np.column_stack([np.ones(ok.sum()), x[ok] ** 2, 1.0 / x[ok] ** 2]) / t[ok, None]
         (a0, b0, c0), *_ = np.linalg.lstsq(design, np.ones(ok.sum()), rcond=None)
         if b0 > 0 and c0 > 0 and a0 + 2.0 * np.sqrt(b0 * c0) > 0:
             w0 = wc * (c0 / b0) ** 0.25
-            ql = (w0 / wc) * np.sqrt(b0) / np.sqrt(a0 + 2.0 * np.sqrt(b0 * c0))
-            if f[0] / 10 < w0 / TWO_PI < f[-1] * 10 and ql > 0:
-                return w0 / TWO_PI, ql, "quadratic fit of the loop power"
-    return _from_peak(f, t, ok)
+            q = (w0 / wc) * np.sqrt(b0) / np.sqrt(a0 + 2.0 * np.sqrt(b0 * c0))
+            if f[0] / 10 < w0 / TWO_PI < f[-1] * 10 and q > 0:
+                return w0 / TWO_PI, q, "quadratic fit of the loop power"
+    return _from_extremum(f, t)
 
 
-def _from_peak(f: np.ndarray, t: np.ndarray, ok: np.ndarray) -> tuple:
-    """Resonance at the smallest loop power; loaded Q from where it doubles."""
+def _from_extremum(f: np.ndarray, t: np.ndarray) -> tuple:
+    """Resonance at the smallest T; Q from where T doubles."""
+    ok = np.isfinite(t) & (t > 0)
     idx = np.flatnonzero(ok)
     i0 = idx[np.argmin(t[idx])]
     level = 2.0 * t[i0]
@@ -129,41 +169,77 @@ def _from_peak(f: np.ndarray, t: np.ndarray, ok: np.ndarray) -> tuple:
     while hi < f.size - 1 and ok[hi + 1] and t[hi + 1] < level:
         hi += 1
     width = max(f[min(hi + 1, f.size - 1)] - f[max(lo - 1, 0)], 1e-9 * f[i0])
-    return float(f[i0]), float(f[i0] / width), "peak and half-power width"
+    return float(f[i0]), float(f[i0] / width), "resonance and half-power width"
 
 
-def _search_loop(sweep: Sweep, setup: Setup, f0: float, ql: float) -> tuple:
-    """The loop resistance that best matches the measured scale, f0 and Q held.
+def _extras_guess(f, magnitude, setup, topology: Topology, f0, z=None) -> dict:
+    """The coil's self-resonance: a second resonance above f0 if the sweep shows one."""
+    if not topology.extras:
+        return {}
+    above = f > 1.5 * f0
+    if z is not None:
+        # the coil's parallel resonance: Im Z falls through zero above the series one
+        x = z.imag
+        cross = np.flatnonzero(above[:-1] & (x[:-1] > 0) & (x[1:] <= 0))
+        if cross.size:
+            return {"f_self_hz": float(f[cross[0]])}
+    t = loop_power_transform(setup, magnitude)
+    if above.sum() > 3:
+        i = int(np.nanargmax(np.where(above, t, -np.inf)))
+        if 0 < i < f.size - 1:
+            return {"f_self_hz": float(f[i])}
+    return {"f_self_hz": float(3.0 * f[-1])}
 
-    Returns the best value and, when a second, distinct value matches about as well
-    (a magnitude-only reflection cannot tell R from Z0^2/R), that value too.
-    """
-    f = sweep.freq_hz
-    data = sweep.values
 
-    def cost(log_loop: float) -> float:
-        model = predicted(setup, f, f0, ql, np.exp(log_loop))
-        if sweep.is_complex:
+class _Search:
+    """One-dimensional searches with the rest held: the scale, then a grid of Q."""
+
+    def __init__(self, sweep, setup, topology, extras, skin_above_hz) -> None:
+        self.sweep, self.setup, self.topology = sweep, setup, topology
+        self.extras, self.skin = extras, skin_above_hz
+
+    def cost(self, f0, q, log_scale: float) -> float:
+        model = predicted(
+            self.setup,
+            self.sweep.freq_hz,
+            f0,
+            q,
+            np.exp(log_scale),
+            topology=self.topology,
+            extras=self.extras,
+            skin_above_hz=self.skin,
+        )
+        data = self.sweep.values
+        if self.sweep.is_complex:
             return float(np.sum(np.abs(model - data) ** 2))
         with np.errstate(divide="ignore"):
             return float(np.sum((np.log(np.abs(model)) - np.log(np.abs(data))) ** 2))
 
-    lower = np.log(max(setup.external_ohm, 1e-3) * 1.0001)
-    grid = np.linspace(lower, np.log(1e7), 121)
-    costs = np.array([cost(g) for g in grid])
-    inner = np.arange(1, grid.size - 1)
-    minima = inner[(costs[inner] <= costs[inner - 1]) & (costs[inner] <= costs[inner + 1])]
-    minima = sorted(minima, key=lambda i: costs[i]) or [int(np.nanargmin(costs))]
-    found = []
-    for i in minima[:2]:
-        lo, hi = grid[max(i - 1, 0)], grid[min(i + 1, grid.size - 1)]
-        best = minimize_scalar(cost, bounds=(lo, hi), method="bounded")
-        found.append((best.fun, float(np.exp(best.x))))
-    found.sort()
-    best_cost, best_loop = found[0]
-    if len(found) > 1 and found[1][0] <= 2.0 * best_cost + 1e-12 * (1 + best_cost):
-        return best_loop, found[1][1]
-    return best_loop, None
+    def scale(self, f0: float, q: float) -> tuple:
+        """The best scale and, when a distinct second one matches about as well (a
+        magnitude-only reflection cannot tell R from Z0^2/R), that one too."""
+        floor = self.setup.external_ohm if self.topology.scale_floor_is_fixture else 0.0
+        grid = np.linspace(np.log(max(floor, 1e-3) * 1.0001), np.log(1e9), 121)
+        costs = np.array([self.cost(f0, q, g) for g in grid])
+        inner = np.arange(1, grid.size - 1)
+        minima = inner[(costs[inner] <= costs[inner - 1]) & (costs[inner] <= costs[inner + 1])]
+        minima = sorted(minima, key=lambda i: costs[i]) or [int(np.nanargmin(costs))]
+        found = []
+        for i in minima[:2]:
+            lo, hi = grid[max(i - 1, 0)], grid[min(i + 1, grid.size - 1)]
+            best = minimize_scalar(lambda g: self.cost(f0, q, g), bounds=(lo, hi), method="bounded")
+            found.append((best.fun, float(np.exp(best.x))))
+        found.sort()
+        best_cost, best_scale = found[0]
+        if len(found) > 1 and found[1][0] <= 2.0 * best_cost + 1e-12 * (1 + best_cost):
+            return best_scale, found[1][1]
+        return best_scale, None
+
+    def best_q(self, f0: float, q_guess: float) -> float:
+        """The Q on a short geometric grid from the guess that fits best."""
+        candidates = q_guess * np.array([1.0, 2.0, 4.0, 8.0, 16.0, 32.0])
+        costs = [self.cost(f0, q, np.log(self.scale(f0, q)[0])) for q in candidates]
+        return float(candidates[int(np.argmin(costs))])
 
 
 def _best_gain(model: np.ndarray, data: np.ndarray) -> float:

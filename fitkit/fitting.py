@@ -1,11 +1,17 @@
-"""Fit a series R-L-C to a sweep: closed-form start, lmfit refinement, honest errors.
+"""Fit a circuit to a sweep: closed-form start, lmfit refinement, honest errors.
 
-Internal parameters are the well-conditioned ones: ln f0, ln(loaded Q), ln(loop
-resistance) and, for an uncalibrated sweep, a scale factor. R, L and C follow from them
-(``L = QL Rloop / w0``, ``C = 1 / (w0 QL Rloop)``, ``R = Rloop - Rfixture``) with the
+Internal parameters are the well-conditioned ones of :mod:`fitkit.topologies`: ln f0,
+ln Q, ln of a scale resistance (and, for a coil, ln of its self-resonance) and, for an
+uncalibrated sweep, a scale factor. Component values follow from them with the
 covariance carried by the ``uncertainties`` package, so L and C keep their strong
-correlation. Which values the sweep determines is computed from the model's Jacobian,
-not assumed.
+correlation. Which values the sweep determines is computed, not assumed: from the
+singular directions of the model's Jacobian, and from which reported value depends on a
+direction the sweep leaves open.
+
+With ``topology="auto"`` every candidate model is fitted and the one with the lowest
+Bayesian information criterion (BIC) is kept, all of them judged against the same noise
+level; a difference under 10 is not taken as evidence (Kass & Raftery, J. Am. Stat.
+Assoc. 90, 1995: "very strong" evidence above 10, from memory).
 """
 
 from __future__ import annotations
@@ -18,30 +24,34 @@ import lmfit
 import numpy as np
 from uncertainties import correlated_values, covariance_matrix, ufloat, umath
 
-from fitkit.circuits import TWO_PI
 from fitkit.errors import FitError, SetupError
 from fitkit.estimate import Start, estimate_start, predicted
 from fitkit.noise import DB_PER_NEPER, Noise, parse_noise
-from fitkit.result import COMPONENTS, QUANTITIES, CircuitFit, FitStats, Quantity
+from fitkit.result import COMPONENTS, OPTIONAL, QUANTITIES, CircuitFit, FitStats, Quantity
 from fitkit.setups import Setup
 from fitkit.sweep import Sweep
+from fitkit.topologies import TOPOLOGIES, Topology, get_topology
 from fitkit.units import format_quantity
 
 _OUTLIER_LIMIT = 6.0  # robust standard deviations
 _MAX_OUTLIER_SHARE = 0.05
 _MIN_POINTS_IN_BAND = 5
 _SINGULAR = 1e-6  # relative singular value below which a direction is not determined
+_BIC_EVIDENCE = 10.0
+_UNIT_NOISE = 1.0
 
 
 def fit_sweep(
     sweep: Sweep,
     setup: Setup,
     *,
+    topology: str = "series",
     known: dict | None = None,
     noise: str | None = None,
     keep_outliers: bool = False,
+    skin_above_hz: float | None = None,
 ) -> CircuitFit:
-    """Fit a series R-L-C circuit to a measured sweep.
+    """Fit a circuit model to a measured sweep.
 
     Parameters
     ----------
@@ -49,6 +59,9 @@ def fit_sweep(
         The measured sweep.
     setup : Setup
         The bench arrangement it was taken with.
+    topology : str
+        ``"series"``, ``"tank"``, ``"coil"`` (see :mod:`fitkit.topologies`) or
+        ``"auto"`` to fit each and keep the one the data support best.
     known : dict, optional
         Values measured otherwise, e.g. ``{"L": (100e-6, 0.5e-6)}`` (value, standard
         error) from an LCR meter; one of them pins the scale of a relative sweep.
@@ -56,6 +69,8 @@ def fit_sweep(
         A stated noise level (see :func:`fitkit.noise.parse_noise`); estimated when omitted.
     keep_outliers : bool
         Keep points far from the model instead of refitting without them.
+    skin_above_hz : float, optional
+        The loss grows as sqrt(f) above this frequency (skin effect).
 
     Returns
     -------
@@ -67,9 +82,9 @@ def fit_sweep(
     FitError
         Too few points, a resonance outside the sweep, or a fit that does not converge.
     SetupError
-        Known values that contradict each other or the setup.
+        Known values that contradict each other, or an unknown topology.
     """
-    problem = _Problem(sweep, setup, _check_known(known or {}))
+    known = _check_known(known or {})
     noise_model = parse_noise(noise, sweep)
     if sweep.points < 6:
         raise FitError(
@@ -77,34 +92,64 @@ def fit_sweep(
             remedy="sweep at least 20 points across the resonance",
             path=sweep.source,
         )
-    start = estimate_start(sweep, setup)
-    problem.check_inside(start.f0_hz, "the first estimate of the resonance")
-    params, null_dirs = problem.parameters(start)
-    used = np.arange(sweep.points)
+    if skin_above_hz is not None and not skin_above_hz > 0:
+        raise SetupError("the skin-effect frequency must be above 0 Hz")
+    if topology == "auto":
+        return _choose(sweep, setup, known, noise_model, keep_outliers, skin_above_hz)
+    problem = _Problem(sweep, setup, get_topology(topology), known, skin_above_hz)
+    first = problem.first_pass(noise_model, keep_outliers)
+    sigmas = noise_model if noise_model.stated else problem.estimate_noise(first)
+    return problem.final(first, sigmas)
 
-    first = problem.minimize(params, used, Noise(noise_model.domain, 1.0, 1.0))
-    outliers = np.array([], dtype=int)
-    if not keep_outliers:
-        outliers = problem.outliers(first.params, used, noise_model.domain)
-        if outliers.size:
-            used = np.setdiff1d(used, outliers)
-            first = problem.minimize(first.params, used, Noise(noise_model.domain, 1.0, 1.0))
-    if noise_model.stated:
-        sigmas = noise_model
-    else:
-        nvary = len(params_varied(params))
-        sigmas = problem.estimate_noise(first.params, used, noise_model.domain, nvary)
-    result = problem.minimize(first.params, used, sigmas, scale_covar=not noise_model.stated)
-    if not result.success or result.covar is None:
+
+def _choose(sweep, setup, known, noise_model, keep_outliers, skin) -> CircuitFit:
+    """Fit every candidate, judge them by BIC against one noise level, keep the best."""
+    trials, failed = {}, {}
+    for name, topology in TOPOLOGIES.items():
+        problem = _Problem(sweep, setup, topology, known, skin)
+        try:
+            trials[name] = (problem, problem.first_pass(noise_model, keep_outliers))
+        except FitError as exc:
+            failed[name] = exc.message
+    if not trials:
+        reasons = "; ".join(f"{n}: {m}" for n, m in failed.items())
         raise FitError(
-            f"the fit did not converge ({result.message})",
+            f"no circuit model fits this sweep ({reasons})",
             remedy="check the setup values and that the sweep covers the resonance",
             path=sweep.source,
         )
-    return problem.to_result(result, start, sigmas, used, outliers, null_dirs)
+    best = min(trials, key=lambda n: trials[n][1].result.redchi)
+    sigmas = noise_model if noise_model.stated else trials[best][0].estimate_noise(trials[best][1])
+    common = np.arange(sweep.points)
+    for _, first in trials.values():
+        common = np.intersect1d(common, first.used)
+    bic = {}
+    for name, (problem, first) in trials.items():
+        resid = problem.residual(first.result.params, common, sigmas)
+        k = len(_varied(first.result.params))
+        bic[name] = float(np.sum(resid**2) + k * math.log(resid.size))
+    ranked = sorted(bic, key=bic.get)
+    winner = ranked[0]
+    close = [n for n in ranked[1:] if bic[n] - bic[winner] < _BIC_EVIDENCE]
+    if close:
+        simplest = min([winner, *close], key=lambda n: len(TOPOLOGIES[n].extras))
+        text = (
+            f"cannot tell {' from '.join([winner, *close])} apart (BIC within "
+            f"{_BIC_EVIDENCE:g}); reporting the simpler {simplest}"
+        )
+        winner = simplest
+    else:
+        margins = ", ".join(f"{bic[n] - bic[winner]:.0f} below {n}" for n in ranked[1:])
+        text = f"chose {winner}: BIC {margins}" if margins else f"chose {winner}"
+    if failed:
+        text += "; " + "; ".join(f"{n} did not fit ({m})" for n, m in failed.items())
+    problem, first = trials[winner]
+    fit = problem.final(first, sigmas)
+    fit.choice = text
+    return fit
 
 
-def params_varied(params: lmfit.Parameters) -> list:
+def _varied(params: lmfit.Parameters) -> list:
     return [name for name, p in params.items() if p.vary]
 
 
@@ -128,37 +173,48 @@ def _check_known(known: dict) -> dict:
     return out
 
 
-class _Problem:
-    """One sweep, one setup, the known values: the model and its residuals."""
+class _FirstPass:
+    """A fit with unit weights on the points kept, and what it found on the way."""
 
-    def __init__(self, sweep: Sweep, setup: Setup, known: dict) -> None:
-        self.sweep = sweep
-        self.setup = setup
-        self.known = known
+    def __init__(self, result, used, outliers, start: Start, null_dirs: list, domain: str):
+        self.result, self.used, self.outliers = result, used, outliers
+        self.start, self.null_dirs, self.domain = start, null_dirs, domain
+
+
+class _Problem:
+    """One sweep, one setup, one topology, the known values: model and residuals."""
+
+    def __init__(self, sweep: Sweep, setup: Setup, topology: Topology, known: dict, skin):
+        self.sweep, self.setup, self.topology = sweep, setup, topology
+        self.known, self.skin = known, skin
         self.f = sweep.freq_hz
         self.data = sweep.values
 
     # -- the model in internal parameters -------------------------------------------------
-    def loop_from_known(self, f0, ql, w0=None):
-        """Loop resistance implied by the known value (plain or uncertain numbers)."""
-        w0 = TWO_PI * f0 if w0 is None else w0
-        ((name, (value, stderr)),) = self.known.items()
-        v = ufloat(value, stderr) if not isinstance(f0, float) else value
-        if name == "L":
-            return w0 * v / ql
-        if name == "C":
-            return 1.0 / (w0 * ql * v)
-        return v + self.setup.external_ohm
-
     def state(self, values: dict) -> tuple:
         f0 = math.exp(values["lnf0"])
-        ql = math.exp(values["lnql"])
-        loop = self.loop_from_known(f0, ql) if self.known else math.exp(values["lnloop"])
-        return f0, ql, loop, values["gain"]
+        q = math.exp(values["lnq"])
+        if self.known:
+            ((name, (value, _)),) = self.known.items()
+            scale = self.topology.scale_from_known(self.setup, name, value, f0, q)
+        else:
+            scale = math.exp(values["lnscale"])
+        extras = {e: math.exp(values[f"ln_{e}"]) for e in self.topology.extras}
+        return f0, q, scale, extras, values["gain"]
 
     def model(self, values: dict, idx=slice(None)) -> np.ndarray:
-        f0, ql, loop, gain = self.state(values)
-        return predicted(self.setup, self.f[idx], f0, ql, loop, gain)
+        f0, q, scale, extras, gain = self.state(values)
+        return predicted(
+            self.setup,
+            self.f[idx],
+            f0,
+            q,
+            scale,
+            topology=self.topology,
+            extras=extras,
+            gain=gain,
+            skin_above_hz=self.skin,
+        )
 
     def raw_residual(self, values: dict, idx, domain: str) -> tuple:
         """Unweighted residual components: (magnitude or real part, phase or imaginary)."""
@@ -189,38 +245,38 @@ class _Problem:
     def parameters(self, start: Start) -> tuple:
         params = lmfit.Parameters()
         params.add("lnf0", value=math.log(start.f0_hz))
-        params.add("lnql", value=math.log(max(start.q_loaded, 1e-3)))
-        params.add("lnloop", value=math.log(start.loop_ohm), vary=not self.known)
+        params.add("lnq", value=math.log(max(start.q, 1e-3)))
+        params.add("lnscale", value=math.log(start.scale_ohm), vary=not self.known)
+        for name in self.topology.extras:
+            params.add(f"ln_{name}", value=math.log(start.extras[name]))
         params.add("gain", value=start.gain, vary=not self.setup.is_calibrated)
         null_dirs = self.null_directions(params)
-        if null_dirs:
-            # the scale is what a relative sweep leaves open: hold it, keep the shape
-            params["lnloop"].vary = False
+        if null_dirs and params["lnscale"].vary:
+            # the scale is what an uncalibrated sweep leaves open: hold it, keep the shape
+            params["lnscale"].vary = False
+            null_dirs = self.null_directions(params) or null_dirs
             if self.null_directions(params):
                 raise FitError(
-                    "the sweep cannot determine the resonance and Q of this circuit",
+                    f"the sweep cannot determine the resonance and Q of a {self.topology.label}",
                     remedy="sweep across the resonance with more points",
                     path=self.sweep.source,
                 )
         return params, null_dirs
 
-    def jacobian(self, params: lmfit.Parameters, names: list) -> np.ndarray:
+    def null_directions(self, params: lmfit.Parameters) -> list:
+        """Directions in the internal parameters that the sweep does not determine."""
+        names = _varied(params)
         base = params.valuesdict()
         idx = np.arange(self.sweep.points)
-        noise = Noise("additive", 1.0)
+        noise = Noise("additive", _UNIT_NOISE)
         r0 = self.residual(params, idx, noise)
         cols = []
         for name in names:
-            p2 = params.copy()
+            shifted = params.copy()
             step = 1e-6 * max(1.0, abs(base[name]))
-            p2[name].set(value=base[name] + step)
-            cols.append((self.residual(p2, idx, noise) - r0) / step)
-        return np.column_stack(cols)
-
-    def null_directions(self, params: lmfit.Parameters) -> list:
-        """Directions in the internal parameters that the sweep does not determine."""
-        names = params_varied(params)
-        jac = self.jacobian(params, names)
+            shifted[name].set(value=base[name] + step)
+            cols.append((self.residual(shifted, idx, noise) - r0) / step)
+        jac = np.column_stack(cols)
         norms = np.linalg.norm(jac, axis=0)
         norms[norms == 0] = 1.0
         _, s, vt = np.linalg.svd(jac / norms, full_matrices=False)
@@ -232,12 +288,27 @@ class _Problem:
             self.residual, params, args=(idx, noise), method="leastsq", scale_covar=scale_covar
         )
 
+    def first_pass(self, noise_model: Noise, keep_outliers: bool) -> _FirstPass:
+        """Start, identifiability, a fit with unit weights, outliers out and refit."""
+        start = estimate_start(self.sweep, self.setup, self.topology, self.skin)
+        self.check_inside(start.f0_hz, "the first estimate of the resonance")
+        params, null_dirs = self.parameters(start)
+        unit = Noise(noise_model.domain, _UNIT_NOISE, _UNIT_NOISE)
+        used = np.arange(self.sweep.points)
+        result = self.minimize(params, used, unit)
+        outliers = np.array([], dtype=int)
+        if not keep_outliers:
+            outliers = self.outliers(result.params, used, noise_model.domain)
+            if outliers.size:
+                used = np.setdiff1d(used, outliers)
+                result = self.minimize(result.params, used, unit)
+        return _FirstPass(result, used, outliers, start, null_dirs, noise_model.domain)
+
     def outliers(self, params, idx, domain: str) -> np.ndarray:
         """Points far from a first fit by a robust measure, unless too many are."""
         a, b = self.raw_residual(params.valuesdict(), idx, domain)
-        comps = [a] if b is None else [a, b]
         flagged = np.zeros(idx.size, dtype=bool)
-        for comp in comps:
+        for comp in [a] if b is None else [a, b]:
             mad = 1.4826 * np.median(np.abs(comp - np.median(comp)))
             if mad > 0:
                 flagged |= np.abs(comp - np.median(comp)) > _OUTLIER_LIMIT * mad
@@ -245,16 +316,29 @@ class _Problem:
             return np.array([], dtype=int)
         return idx[flagged]
 
-    def estimate_noise(self, params, idx, domain: str, nvary: int) -> Noise:
-        a, b = self.raw_residual(params.valuesdict(), idx, domain)
+    def estimate_noise(self, first: _FirstPass) -> Noise:
+        """Noise from the residuals of the first pass, magnitude and phase apart."""
+        domain = first.domain
+        a, b = self.raw_residual(first.result.params.valuesdict(), first.used, domain)
         ncomp = 1 if b is None else 2
-        dof_share = max(1.0 - nvary / (ncomp * idx.size), 0.5)
+        nvary = len(_varied(first.result.params))
+        dof_share = max(1.0 - nvary / (ncomp * first.used.size), 0.5)
         if domain == "additive" and b is not None:
             sigma = math.sqrt(np.mean(np.concatenate([a, b]) ** 2) / dof_share)
             return Noise(domain, max(sigma, 1e-300))
         sigma = math.sqrt(np.mean(a**2) / dof_share)
         phase = None if b is None else max(math.sqrt(np.mean(b**2) / dof_share), 1e-15)
         return Noise(domain, max(sigma, 1e-300), phase)
+
+    def final(self, first: _FirstPass, noise: Noise) -> CircuitFit:
+        result = self.minimize(first.result.params, first.used, noise, scale_covar=not noise.stated)
+        if not result.success or result.covar is None:
+            raise FitError(
+                f"the fit did not converge ({result.message})",
+                remedy="check the setup values and that the sweep covers the resonance",
+                path=self.sweep.source,
+            )
+        return self.to_result(result, first, noise)
 
     # -- checks and the result ------------------------------------------------------------
     def check_inside(self, f0: float, what: str) -> None:
@@ -266,13 +350,10 @@ class _Problem:
                 path=self.sweep.source,
             )
 
-    def to_result(
-        self, result, start: Start, noise: Noise, used, outliers, null_dirs
-    ) -> CircuitFit:
-        quantities, undetermined = self.quantities(result, null_dirs)
+    def to_result(self, result, first: _FirstPass, noise: Noise) -> CircuitFit:
+        quantities, undetermined, uvalues = self.quantities(result, first.null_dirs)
         self.check_inside(quantities["f0_hz"].value, "the fitted resonance")
-        warnings = self.warnings(result, quantities, start, noise, used)
-        determined = [n for n in QUANTITIES if quantities[n].determined]
+        used = first.used
         a, b = self.raw_residual(result.params.valuesdict(), used, noise.domain)
         if noise.domain == "relative":
             rms, rms_unit = float(np.sqrt(np.mean(a**2)) * DB_PER_NEPER), "dB"
@@ -290,16 +371,16 @@ class _Problem:
             bic=float(result.bic),
             converged=bool(result.success and result.errorbars),
             noise=noise.describe(self.sweep.kind),
-            start=start.method,
-            outliers_hz=[float(x) for x in self.f[outliers]],
-            warnings=warnings,
+            start=first.start.method,
+            outliers_hz=[float(x) for x in self.f[first.outliers]],
+            warnings=self.warnings(result, quantities, first.start, noise, used),
         )
-        values = [self._uvalues[n] for n in determined]
+        determined = [n for n in quantities if quantities[n].determined]
         fit = CircuitFit(
-            topology="series",
+            topology=self.topology.name,
             quantities=quantities,
             covariance_names=determined,
-            covariance=np.array(covariance_matrix(values)),
+            covariance=np.array(covariance_matrix([uvalues[n] for n in determined])),
             stats=stats,
             setup=self.setup.to_dict(),
             sweep=self.sweep_info(),
@@ -310,39 +391,45 @@ class _Problem:
         return fit
 
     def quantities(self, result, null_dirs) -> tuple:
-        names = params_varied(result.params)
-        uv = dict(zip(names, _correlated(result, names)))
-        val = {n: uv.get(n, result.params[n].value) for n in ("lnf0", "lnql", "lnloop")}
+        names = _varied(result.params)
+        uv = dict(
+            zip(names, correlated_values([result.params[n].value for n in names], result.covar))
+        )
+        val = {n: uv.get(n, p.value) for n, p in result.params.items()}
         f0 = umath.exp(val["lnf0"])
-        ql = umath.exp(val["lnql"])
-        w0 = TWO_PI * f0
-        out = {"f0_hz": f0, "Q_loaded": ql, "loaded_bandwidth_hz": f0 / ql}
-        scale_known = bool(self.known) or not null_dirs
-        if scale_known:
-            loop = self.loop_from_known(f0, ql, w0) if self.known else umath.exp(val["lnloop"])
-            r = loop - self.setup.external_ohm
-            out["R"] = r
-            out["L"] = ql * loop / w0
-            out["C"] = 1.0 / (w0 * ql * loop)
-            if _value(r) > 0:
-                out["Q"] = w0 * out["L"] / r
-                out["bandwidth_hz"] = r / (TWO_PI * out["L"])
-        self._uvalues = out
-        quantities, undetermined = {}, []
+        q = umath.exp(val["lnq"])
+        scale_open = bool(null_dirs) and not self.known
+        marker = None
+        if self.known:
+            ((name, (value, stderr)),) = self.known.items()
+            scale = self.topology.scale_from_known(self.setup, name, ufloat(value, stderr), f0, q)
+        elif scale_open:
+            marker = ufloat(math.exp(val["lnscale"]), 1.0, tag="scale left open")
+            scale = marker
+        else:
+            scale = umath.exp(val["lnscale"])
+        extras = {e: umath.exp(val[f"ln_{e}"]) for e in self.topology.extras}
+        comps = self.topology.components(self.setup, f0, q, scale, extras)
+        values = {**comps, **self.topology.derived(self.setup, f0, q, comps)}
+        quantities, undetermined, kept = {}, [], {}
         for name in QUANTITIES:
-            if name in out:
-                u = out[name]
-                quantities[name] = Quantity(name, float(_value(u)), float(_stderr(u)))
+            if name in OPTIONAL and name not in values:
                 continue
-            reason, remedy = self.why_undetermined(name, scale_known)
-            quantities[name] = Quantity(name, None, None, reason)
-            undetermined.append({"name": name, "reason": reason, "remedy": remedy})
-        return quantities, undetermined
+            u = values.get(name)
+            depends_on_open = marker is not None and u is not None and _derivative(u, marker) != 0.0
+            if u is None or depends_on_open:
+                reason, remedy = self.why_undetermined(depends_on_open or scale_open)
+                quantities[name] = Quantity(name, None, None, reason)
+                undetermined.append({"name": name, "reason": reason, "remedy": remedy})
+                continue
+            kept[name] = u
+            quantities[name] = Quantity(name, float(_value(u)), float(_stderr(u)))
+        return quantities, undetermined, kept
 
-    def why_undetermined(self, name: str, scale_known: bool) -> tuple:
-        if not scale_known:
+    def why_undetermined(self, scale_open: bool) -> tuple:
+        if scale_open:
             return (
-                "an uncalibrated sweep fixes only f0 and the loaded Q; nothing ties its "
+                "an uncalibrated sweep fixes only f0 and the Q it shows; nothing ties its "
                 "scale to ohms",
                 "give the generator amplitude or a calibrated ratio with the sense resistor, "
                 "or one known value (e.g. --known L=100u from an LCR meter)",
@@ -356,41 +443,45 @@ class _Problem:
 
     def warnings(self, result, q: dict, start: Start, noise: Noise, used) -> list:
         out = []
-        f0, ql = q["f0_hz"].value, q["Q_loaded"].value
-        half = f0 / (2.0 * ql)
-        inside = int(np.sum(np.abs(self.f[used] - f0) <= half))
-        if inside < _MIN_POINTS_IN_BAND:
+        f0, ql = q["f0_hz"].value, q["Q_loaded"].value if q["Q_loaded"].determined else None
+        if ql:
+            half = f0 / (2.0 * ql)
+            inside = int(np.sum(np.abs(self.f[used] - f0) <= half))
+            if inside < _MIN_POINTS_IN_BAND:
+                out.append(
+                    f"only {inside} points lie within the half-power band "
+                    f"({format_quantity(f0 - half, 'Hz')} to {format_quantity(f0 + half, 'Hz')});"
+                    " sweep finer near the resonance"
+                )
+        r = q["R"]
+        ext = format_quantity(self.setup.external_ohm, "ohm")
+        if r.determined and r.value <= 0:
             out.append(
-                f"only {inside} points lie within the half-power band "
-                f"({format_quantity(f0 - half, 'Hz')} to {format_quantity(f0 + half, 'Hz')}); "
-                "sweep finer near the resonance"
+                f"R came out at {r.text()}: the fixture resistance in the setup ({ext}) is at "
+                "least the whole loop resistance found; check the sense and source resistance"
             )
-        if q["R"].determined and q["R"].value <= 0:
+        elif r.determined and r.value < 2.0 * r.stderr:
             out.append(
-                f"R came out at {q['R'].text()}: the fixture resistance in the setup "
-                f"({format_quantity(self.setup.external_ohm, 'ohm')}) is at least the whole "
-                "loop resistance found; check the sense and source resistance values"
+                f"R = {r.text()} is barely resolved above zero: the fixture resistance "
+                f"({ext}) dominates the loop"
             )
-        elif q["R"].determined and q["R"].value < 2.0 * q["R"].stderr:
+        if start.mirror_scale_ohm is not None and not self.sweep.is_complex:
+            other = start.mirror_scale_ohm - self.setup.external_ohm
             out.append(
-                f"R = {q['R'].text()} is barely resolved above zero: the fixture "
-                f"resistance ({format_quantity(self.setup.external_ohm, 'ohm')}) dominates the loop"
-            )
-        if start.mirror_loop_ohm is not None and not self.sweep.is_complex:
-            other = start.mirror_loop_ohm - self.setup.external_ohm
-            out.append(
-                f"a magnitude-only {self.sweep.kind} sweep fits "
-                f"R = {format_quantity(other, 'ohm')} "
-                "about as well as the value reported; measure the phase too to tell them apart"
+                f"a magnitude-only {self.sweep.kind} sweep fits R = "
+                f"{format_quantity(other, 'ohm')} about as well as the value reported; "
+                "measure the phase too to tell them apart"
             )
         z = self.residual(result.params, used, noise)[: used.size]
         if used.size >= 20:
             lag1 = float(np.corrcoef(z[:-1], z[1:])[0, 1])
             if lag1 > 0.5:
+                hint = " (try --model auto: a tank or a coil with self-capacitance)"
                 out.append(
-                    f"the residuals are structured (lag-1 correlation {lag1:.2f}): the series "
-                    "R-L-C model does not describe this sweep well and the uncertainties are "
-                    "too small; look at the plot"
+                    f"the residuals are structured (lag-1 correlation {lag1:.2f}): the "
+                    f"{self.topology.label} model does not describe this sweep well and the "
+                    "uncertainties are too small; look at the plot"
+                    + (hint if self.topology.name == "series" else "")
                 )
         if noise.stated:
             dof = max(result.nfree, 1)
@@ -417,6 +508,7 @@ class _Problem:
             "recorded_in_db": self.sweep.recorded_in_db,
             "notes": list(self.sweep.notes),
             "metadata": {str(k): str(v) for k, v in self.sweep.metadata.items()},
+            "skin_above_hz": self.skin,
         }
         path = Path(self.sweep.source)
         if path.is_file():
@@ -424,8 +516,8 @@ class _Problem:
         return info
 
 
-def _correlated(result, names):
-    return correlated_values([result.params[n].value for n in names], result.covar)
+def _derivative(u, variable) -> float:
+    return getattr(u, "derivatives", {}).get(variable, 0.0)
 
 
 def _value(u) -> float:

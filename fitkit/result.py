@@ -25,7 +25,12 @@ QUANTITIES = {
     "Q_loaded": ("", "Q (loaded, as the bench saw it)"),
     "bandwidth_hz": ("Hz", "bandwidth -3 dB (circuit)"),
     "loaded_bandwidth_hz": ("Hz", "bandwidth -3 dB (loaded)"),
+    "R_dynamic": ("ohm", "dynamic resistance (tank at f0)"),
+    "C_self": ("F", "C self (coil self-capacitance)"),
+    "f_self_hz": ("Hz", "f self (coil self-resonance)"),
 }
+#: quantities only some topologies have
+OPTIONAL = ("R_dynamic", "C_self", "f_self_hz")
 COMPONENTS = ("R", "L", "C")
 
 
@@ -90,6 +95,7 @@ class CircuitFit:
     sweep: dict
     known: dict
     undetermined: list
+    choice: str = ""
     model_curve: tuple | None = None  # (freq_hz, measured, fitted) when made from a sweep
 
     def __getitem__(self, name: str) -> Quantity:
@@ -126,8 +132,9 @@ class CircuitFit:
         return {
             "fitkit_version": __version__,
             "topology": self.topology,
+            "model_choice": self.choice,
             "values": {n: q[n].to_dict() for n in COMPONENTS},
-            "derived": {n: q[n].to_dict() for n in QUANTITIES if n not in COMPONENTS},
+            "derived": {n: q[n].to_dict() for n in QUANTITIES if n not in COMPONENTS and n in q},
             "correlations": self.correlations(),
             "covariance": {
                 "names": list(self.covariance_names),
@@ -162,6 +169,8 @@ class CircuitFit:
         try:
             quantities = {}
             for name in QUANTITIES:
+                if name in OPTIONAL and name not in data["derived"]:
+                    continue
                 entry = data["values"][name] if name in COMPONENTS else data["derived"][name]
                 quantities[name] = Quantity(
                     name, entry["value"], entry["stderr"], entry.get("reason", "")
@@ -177,6 +186,7 @@ class CircuitFit:
                 sweep=data["sweep"],
                 known=data.get("known", {}),
                 undetermined=data.get("undetermined", []),
+                choice=data.get("model_choice", ""),
             )
         except (KeyError, TypeError, ValueError) as exc:
             raise InputError(

@@ -14,8 +14,9 @@ import numpy as np
 import pytest
 
 from fitkit.circuits import series_rlc
-from fitkit.estimate import circuit_values, predicted
+from fitkit.estimate import predicted
 from fitkit.setups import Setup
+from fitkit.topologies import SERIES
 
 # The worked example: R = 2 ohm, L = 1 mH, C = 0.4 uF.
 R, L, C = 2.0, 1e-3, 0.4e-6
@@ -95,7 +96,8 @@ def test_circuit_values_invert_the_closed_forms():
     # w0 = 1/sqrt(LC) and Q = (1/R) sqrt(L/C) for the worked example (impedance bench: the
     # fixture adds nothing to the loop). Alexander & Sadiku, ch. 14, from memory.
     setup = Setup(bench="impedance", kind="impedance")
-    r, l_h, c_f = circuit_values(setup, 50e3 / TWO_PI, 25.0, 2.0)
+    comps = SERIES.components(setup, 50e3 / TWO_PI, 25.0, 2.0, {})
+    r, l_h, c_f = comps["R"], comps["L"], comps["C"]
     assert r == pytest.approx(R, rel=1e-12)
     assert l_h == pytest.approx(L, rel=1e-12)
     assert c_f == pytest.approx(C, rel=1e-12)

@@ -5,6 +5,7 @@ from __future__ import annotations
 from fitkit import __version__
 from fitkit.result import QUANTITIES, CircuitFit
 from fitkit.setups import Setup
+from fitkit.topologies import TOPOLOGIES
 
 
 def fit_table(fit: CircuitFit) -> str:
@@ -12,18 +13,21 @@ def fit_table(fit: CircuitFit) -> str:
     s = fit.stats
     setup = Setup(**fit.setup)
     lines = [
-        f"fitkit {__version__}: {fit.topology} R-L-C fit of {fit.sweep['source']}",
+        f"fitkit {__version__}: {TOPOLOGIES[fit.topology].label} fitted to {fit.sweep['source']}",
         f"  sweep    {_sweep_line(fit.sweep)}",
         f"  bench    {setup.describe()}",
         f"  noise    {s.noise}",
     ]
+    if fit.choice:
+        lines.append(f"  model    {fit.choice}")
     for name in fit.known:
         q = fit.quantities[name]
         lines.append(f"  known    {name} = {q.text()} (given, not fitted)")
     lines.append("")
-    width = max(len(label) for _, label in QUANTITIES.values())
-    for name, (_, label) in QUANTITIES.items():
-        lines.append(f"  {label:<{width}}  {fit.quantities[name].text()}")
+    shown = [n for n in QUANTITIES if n in fit.quantities]
+    width = max(len(QUANTITIES[n][1]) for n in shown)
+    for name in shown:
+        lines.append(f"  {QUANTITIES[name][1]:<{width}}  {fit.quantities[name].text()}")
     corr = fit.correlation("L", "C")
     if corr is not None and "L" not in fit.known and "C" not in fit.known:
         lines.append(f"  {'correlation of L and C':<{width}}  {corr:+.3f}")

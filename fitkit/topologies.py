@@ -1,0 +1,140 @@
+"""Topologies in the fit's well-conditioned terms.
+
+Every topology is fitted through the same internal numbers: the resonance f0, a Q and a
+scale resistance (plus, for a coil with self-capacitance, its self-resonance). Each class
+maps them to component values and back; the maps use only arithmetic, so they work on
+plain floats and on correlated ``uncertainties`` values alike.
+
+- ``series``: R, L, C in series. q is the loaded Q, ``w0 L / (R + Rfixture)``; the scale
+  is the loop resistance ``R + Rfixture``.
+- ``tank``: a coil (L with series loss R) across C. q is the tank's own Q, ``w0 L / R``;
+  the scale is its dynamic resistance at resonance ``L / (R C)``.
+- ``coil``: a real coil (L, loss R, self-capacitance Cself across it) in series with C;
+  as ``series`` plus the coil's self-resonance.
+
+A loss that grows as sqrt(f) above a stated frequency (skin effect) multiplies R by
+``sqrt(max(f, fs) / fs)``, normalised to 1 at f0 so R is reported at the resonance.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from fitkit.circuits import TWO_PI, coil_in_series, series_rlc, tank
+from fitkit.errors import SetupError
+
+
+class Topology:
+    """The series circuit; the other topologies change what differs."""
+
+    name = "series"
+    label = "series R-L-C"
+    extras: tuple = ()
+    scale_floor_is_fixture = True  # the loop resistance cannot be below the fixture's
+
+    def components(self, setup, f0, q, scale, extras: dict) -> dict:
+        w0 = TWO_PI * f0
+        return {"R": scale - setup.external_ohm, "L": q * scale / w0, "C": 1.0 / (w0 * q * scale)}
+
+    def scale_from_known(self, setup, name: str, value, f0, q):
+        w0 = TWO_PI * f0
+        if name == "L":
+            return w0 * value / q
+        if name == "C":
+            return 1.0 / (w0 * q * value)
+        return value + setup.external_ohm
+
+    def impedance(self, freq_hz, comps: dict, loss_factor) -> np.ndarray:
+        return series_rlc(freq_hz, comps["R"] * loss_factor, comps["L"], comps["C"])
+
+    def derived(self, setup, f0, q, comps: dict) -> dict:
+        out = {"f0_hz": f0, "Q_loaded": q, "loaded_bandwidth_hz": f0 / q}
+        r = comps["R"]
+        if _nominal(r) > 0:
+            out["Q"] = TWO_PI * f0 * comps["L"] / r
+            out["bandwidth_hz"] = r / (TWO_PI * comps["L"])
+        return out
+
+
+class Tank(Topology):
+    name = "tank"
+    label = "parallel tank (coil with loss across C)"
+    scale_floor_is_fixture = False
+
+    def components(self, setup, f0, q, scale, extras: dict) -> dict:
+        w0 = TWO_PI * f0
+        return {"R": scale / q**2, "L": scale / (q * w0), "C": q / (w0 * scale)}
+
+    def scale_from_known(self, setup, name: str, value, f0, q):
+        w0 = TWO_PI * f0
+        if name == "L":
+            return q * w0 * value
+        if name == "C":
+            return q / (w0 * value)
+        return q**2 * value
+
+    def impedance(self, freq_hz, comps: dict, loss_factor) -> np.ndarray:
+        return tank(freq_hz, comps["R"] * loss_factor, comps["L"], comps["C"])
+
+    def derived(self, setup, f0, q, comps: dict) -> dict:
+        r_dynamic = comps["L"] / (comps["R"] * comps["C"])
+        ext = setup.external_ohm
+        # the fixture's resistance in series with the tank damps it in parallel:
+        # the response's pole sits at Q * Rext / (Rext + R_D) (derived)
+        q_loaded = q * ext / (ext + r_dynamic) if ext > 0 else q
+        return {
+            "f0_hz": f0,
+            "Q": q,
+            "Q_loaded": q_loaded,
+            "bandwidth_hz": f0 / q,
+            "loaded_bandwidth_hz": f0 / q_loaded,
+            "R_dynamic": r_dynamic,
+        }
+
+
+class Coil(Topology):
+    name = "coil"
+    label = "coil with self-capacitance, in series with C"
+    extras = ("f_self_hz",)
+
+    def components(self, setup, f0, q, scale, extras: dict) -> dict:
+        comps = super().components(setup, f0, q, scale, extras)
+        comps["C_self"] = 1.0 / ((TWO_PI * extras["f_self_hz"]) ** 2 * comps["L"])
+        return comps
+
+    def impedance(self, freq_hz, comps: dict, loss_factor) -> np.ndarray:
+        return coil_in_series(
+            freq_hz, comps["R"] * loss_factor, comps["L"], comps["C"], comps["C_self"]
+        )
+
+    def derived(self, setup, f0, q, comps: dict) -> dict:
+        out = super().derived(setup, f0, q, comps)
+        out["f_self_hz"] = 1.0 / (TWO_PI * (comps["L"] * comps["C_self"]) ** 0.5)
+        return out
+
+
+TOPOLOGIES = {t.name: t for t in (Topology(), Tank(), Coil())}
+SERIES = TOPOLOGIES["series"]
+
+
+def get_topology(name: str) -> Topology:
+    """The topology by name (``series``, ``tank``, ``coil``)."""
+    try:
+        return TOPOLOGIES[name]
+    except KeyError:
+        raise SetupError(
+            f"unknown circuit model {name!r}",
+            remedy=f"choose one of: {', '.join(TOPOLOGIES)}, or auto",
+        ) from None
+
+
+def loss_factor(freq_hz: np.ndarray, f0_hz: float, skin_above_hz: float | None):
+    """How the loss resistance scales with frequency, 1 at the resonance."""
+    if skin_above_hz is None:
+        return 1.0
+    growth = np.sqrt(np.maximum(freq_hz, skin_above_hz) / skin_above_hz)
+    return growth / np.sqrt(max(f0_hz, skin_above_hz) / skin_above_hz)
+
+
+def _nominal(u) -> float:
+    return getattr(u, "nominal_value", u)
