@@ -1,0 +1,236 @@
+"""``fitkit plan``: the best any fit can do with a planned sweep, and the sweep to take."""
+
+from __future__ import annotations
+
+import math
+import re
+
+import click
+import numpy as np
+
+from fitkit import __version__
+from fitkit.bench_file import build_setup, known_values, load_bench_file
+from fitkit.circuits import TWO_PI
+from fitkit.cli.base import main, reports_errors
+from fitkit.cli.fit_cmd import bench_options, overrides_from_options
+from fitkit.errors import SetupError
+from fitkit.noise import parse_noise
+from fitkit.plan import (
+    BOUNDED,
+    SPACINGS,
+    Bounds,
+    Plan,
+    SweepShape,
+    cramer_rao,
+    hz_to_bandwidths,
+    plan_sweep,
+)
+from fitkit.plan import resonance as resonance_of
+from fitkit.result import QUANTITIES
+from fitkit.setups import Setup
+from fitkit.sweep import KINDS, Sweep
+from fitkit.units import format_quantity, parse_quantity
+
+#: short names accepted by --target
+TARGET_NAMES = {
+    "R": "R",
+    "L": "L",
+    "C": "C",
+    "f0": "f0_hz",
+    "Q": "Q",
+    "QL": "Q_loaded",
+    "B": "bandwidth_hz",
+    "BL": "loaded_bandwidth_hz",
+}
+
+
+@main.command("plan")
+@click.option("--r", "r_text", help="Expected circuit loss R, ohm (e.g. 5, 2R2).")
+@click.option("--l", "l_text", help="Expected L (e.g. 100u).")
+@click.option("--c", "c_text", help="Expected C (e.g. 1n).")
+@click.option("--f0", "f0_text", help="Expected resonance (with --q and one of --l/--c).")
+@click.option("--q", "q_value", type=float, help="Expected circuit Q, unloaded (with --f0).")
+@click.option(
+    "--kind",
+    type=click.Choice(KINDS),
+    default="ratio",
+    show_default=True,
+    help="What the instrument will read.",
+)
+@bench_options
+@click.option(
+    "--noise",
+    required=True,
+    help="Expected noise per point: additive '1e-3' (measured unit, per real and per "
+    "imaginary part) or relative '0.05dB,0.3deg' / '1%'.",
+)
+@click.option("--magnitude-only", is_flag=True, help="Plan for magnitude readings (no phase).")
+@click.option(
+    "--span",
+    default=3.0,
+    show_default=True,
+    type=float,
+    help="Half-span in loaded bandwidths (+-SPAN).",
+)
+@click.option("--points", default=201, show_default=True, type=int, help="Points per sweep.")
+@click.option("--spacing", type=click.Choice(SPACINGS), default="linear", show_default=True)
+@click.option("--centre", "centre_text", help="Sweep centre frequency [default: the resonance].")
+@click.option(
+    "--target",
+    metavar="NAME=PRECISION",
+    help="Find the cheapest sweep that knows NAME (R, L, C, f0, Q, QL, B, BL) to "
+    "PRECISION, e.g. L=0.5%.",
+)
+@reports_errors
+def plan_command(noise, magnitude_only, span, points, spacing, centre_text, target, **opts):
+    """Print the Cramer-Rao bound: the smallest standard deviations of R, L, C, f0 and Q
+    that any fit of the planned sweep can reach, and with --target the sweep to take.
+
+    Values the planned sweep cannot determine at all are named, with the reason.
+    Exit status 2 on bad input.
+    """
+    complex_data = not magnitude_only
+    stand_in = _stand_in_sweep(opts.pop("kind"), complex_data)
+    file = load_bench_file(opts["setup_file"]) if opts.get("setup_file") else {}
+    setup = build_setup(stand_in, file.get("bench"), overrides_from_options(opts))
+    known = known_values(file.get("known"), tuple(opts.get("known", ())))
+    r_ohm, l_h, c_f = _circuit(opts, setup)
+    f0, ql = resonance_of(setup, r_ohm, l_h, c_f)
+    centre = parse_quantity(centre_text, "Hz", what="centre") if centre_text else f0
+    if not centre > 0:
+        raise SetupError(f"the sweep centre must be above 0 Hz, not {centre_text!r}")
+    shape = SweepShape(span, points, spacing, hz_to_bandwidths(centre, f0, ql))
+    noise_model = parse_noise(noise, stand_in)
+    freq_hz = shape.frequencies(f0, ql)
+    bounds = cramer_rao(
+        setup, freq_hz, r_ohm, l_h, c_f, noise_model, complex_data=complex_data, known=known
+    )
+    click.echo(f"fitkit {__version__}: Cramer-Rao lower bound for a planned sweep")
+    click.echo(f"  bench    {setup.describe()}")
+    click.echo(f"  sweep    {_sweep_text(shape, freq_hz)}")
+    click.echo(
+        f"  data     {'complex' if complex_data else 'magnitude only'}, noise "
+        f"{noise_model.describe(setup.kind).replace('stated', 'per point')}"
+    )
+    click.echo("")
+    click.echo(bounds_table(bounds))
+    if target:
+        name, rel = _parse_target(target)
+        found = plan_sweep(
+            setup,
+            r_ohm,
+            l_h,
+            c_f,
+            noise_model,
+            name,
+            rel,
+            complex_data=complex_data,
+            spacing=spacing,
+            offset_bw=shape.offset_bw,
+            known=known,
+        )
+        click.echo("")
+        click.echo(plan_text(found, f0, ql))
+
+
+def _stand_in_sweep(kind: str, complex_data: bool) -> Sweep:
+    """A two-point sweep of the planned kind: the shared setup and noise parsers read only
+    its kind and whether it holds phase."""
+    values = np.ones(2, dtype=complex if complex_data else float)
+    return Sweep(np.array([1.0, 2.0]), values, kind, source="<planned sweep>")
+
+
+def _circuit(opts: dict, setup: Setup) -> tuple:
+    """R, L, C from (R, L, C) or (f0, Q and one of L, C)."""
+    given = {k: opts.get(f"{k}_text") for k in ("r", "l", "c", "f0")}
+    units = {"r": "ohm", "l": "H", "c": "F", "f0": "Hz"}
+    v = {k: parse_quantity(t, units[k], what=k.upper()) for k, t in given.items() if t}
+    if opts.get("q_value") is not None:
+        given["q"] = v["q"] = opts["q_value"]
+    for k, value in v.items():
+        if not (math.isfinite(value) and value > 0):
+            raise SetupError(
+                f"the expected {k.upper()} must be above zero, not {given[k]!r}",
+                remedy="give the circuit you expect, e.g. --r 5 --l 100u --c 1n",
+            )
+    if {"r", "l", "c"} <= set(v) and not {"f0", "q"} & set(v):
+        return v["r"], v["l"], v["c"]
+    if {"f0", "q"} <= set(v) and len({"l", "c"} & set(v)) == 1 and "r" not in v:
+        w0 = TWO_PI * v["f0"]
+        l_h = v["l"] if "l" in v else 1.0 / (w0**2 * v["c"])
+        return w0 * l_h / v["q"], l_h, 1.0 / (w0**2 * l_h)
+    raise SetupError(
+        "the expected circuit needs either --r, --l and --c, or --f0, --q and one of --l/--c",
+        remedy="e.g. --r 5 --l 100u --c 1n, or --f0 503k --q 63 --l 100u",
+    )
+
+
+def _parse_target(text: str) -> tuple:
+    m = re.fullmatch(r"\s*(\w+)\s*=\s*([0-9.]+(?:[eE][-+]?\d+)?)\s*(%?)\s*", text)
+    if not m or m.group(1) not in TARGET_NAMES:
+        raise SetupError(
+            f"cannot read the target {text!r}",
+            remedy="write NAME=PRECISION with NAME one of "
+            + ", ".join(TARGET_NAMES)
+            + ", e.g. L=0.5%",
+        )
+    rel = float(m.group(2)) / (100.0 if m.group(3) else 1.0)
+    return TARGET_NAMES[m.group(1)], rel
+
+
+def _sweep_text(shape: SweepShape, freq_hz: np.ndarray) -> str:
+    about = (
+        f"{shape.offset_bw:+.3g} bandwidths from resonance"
+        if shape.offset_bw
+        else ("centred on the resonance")
+    )
+    return (
+        f"{shape.points} points, {shape.spacing}, {format_quantity(freq_hz[0], 'Hz')} to "
+        f"{format_quantity(freq_hz[-1], 'Hz')} (+-{shape.span_bw:g} loaded bandwidths, {about})"
+    )
+
+
+def bounds_table(bounds: Bounds) -> str:
+    """Expected values, their bounds and the relative bounds; gaps with their reasons."""
+    width = max(len(QUANTITIES[name][1]) for name in BOUNDED)
+    lines = [f"  {'value':<{width}}  {'expected':>12}  {'bound (1 sigma)':>16}  {'relative':>9}"]
+    reasons = []
+    for name in BOUNDED:
+        unit, label = QUANTITIES[name]
+        q = bounds[name]
+        if not q.determined:
+            lines.append(f"  {label:<{width}}  {'':>12}  {'not determined':>16}")
+            reasons.append(q.reason)
+            continue
+        lines.append(
+            f"  {label:<{width}}  {format_quantity(q.value, unit):>12}  "
+            f"{format_quantity(q.stderr, unit):>16}  {_percent(q.stderr / abs(q.value)):>9}"
+        )
+    lines.extend(f"  why: {reason}" for reason in dict.fromkeys(reasons))
+    return "\n".join(lines)
+
+
+def plan_text(found: Plan, f0_hz: float, q_loaded: float) -> str:
+    """The planner's answer in a few lines."""
+    label = QUANTITIES[found.target][1]
+    want = f"  target   {label} to {_percent(found.target_rel)}"
+    if found.shape is None:
+        return f"{want}: cannot be reached with any sweep\n  why: {found.reason}"
+    s = found.shape
+    f = s.frequencies(f0_hz, q_loaded)
+    sweep = (
+        f"{s.points} {s.spacing} points over +-{s.span_bw:g} loaded bandwidths "
+        f"({format_quantity(f[0], 'Hz')} to {format_quantity(f[-1], 'Hz')})"
+    )
+    reached = _percent(found.bounds.relative(found.target))
+    if found.averages == 1:
+        return f"{want}: cheapest sweep on the grid: {sweep}, bound {reached}"
+    return (
+        f"{want}: no sweep on the grid reaches it; the best, {sweep}, gives {reached};\n"
+        f"           average {found.averages} such sweeps (or lower the noise by "
+        f"{math.sqrt(found.averages):.3g}x) to reach it"
+    )
+
+
+def _percent(fraction: float) -> str:
+    return f"{100.0 * fraction:.3g}%"

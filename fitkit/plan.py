@@ -1,0 +1,431 @@
+"""Sweep planning: the Fisher information of a sweep and the Cramer-Rao lower bound.
+
+No unbiased estimator can beat ``cov >= F^-1``, with the Fisher matrix
+``F = J^T J`` of the model Jacobian J whitened by the noise (real and imaginary parts
+stacked for complex data, magnitude rows only for magnitude data); Kay, Fundamentals of
+Statistical Signal Processing: Estimation Theory, 1993, ch. 3 (from memory).
+
+The Jacobian is analytic, taken in the fit's own well-conditioned parameters
+(ln f0, ln loaded Q, ln loop resistance and, for an uncalibrated scale, ln gain). With
+``Z = Rloop (1 + j QL y) - Rfixture``, ``y = f/f0 - f0/f``, the circuit derivatives are
+
+    dZ/d ln Rloop = Rloop (1 + j QL y)
+    dZ/d ln QL    = j Rloop QL y
+    dZ/d ln f0    = -j Rloop QL (f/f0 + f0/f)
+
+and the bench's bilinear map adds ``dm/dZ = (a d - b c) / (c Z + d)^2``. R, L, C, f0 and
+Q follow by the delta method from their gradients in the same log parameters.
+
+A value is *undetermined* when its gradient has a component along a direction the data
+leave open (a relative sweep: scale and loop resistance trade off exactly); the bound is
+then not a large number but no number at all, with the reason.
+
+A sweep's span is counted in loaded half-power bandwidths through the response's own
+variable: the point ``x`` bandwidths from resonance sits where ``QL y = 2 x`` (so
+``x = +-1/2`` are exactly the half-power points), which keeps every frequency positive
+even for a wide span at low Q.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from fitkit.circuits import TWO_PI, series_rlc
+from fitkit.errors import SetupError
+from fitkit.noise import Noise
+from fitkit.result import Quantity
+from fitkit.setups import Setup
+
+SPACINGS = ("linear", "log")
+#: what the bound covers: the series circuit's values, named as in a fit's quantities
+BOUNDED = ("R", "L", "C", "f0_hz", "Q", "Q_loaded", "bandwidth_hz", "loaded_bandwidth_hz")
+#: the grid the planner searches: half-spans in loaded bandwidths, and point counts
+PLAN_SPANS_BW = (1.0, 1.5, 2.0, 3.0, 5.0, 10.0, 20.0)
+PLAN_POINTS = (11, 21, 51, 101, 201, 401, 1001, 2001, 5001)
+_SINGULAR = 1e-6  # relative singular value below which a direction is not determined
+_LEAK = 1e-3  # share of a gradient along an open direction that makes a value open too
+_EXACT_KNOWN = 1e-6  # relative uncertainty taken for a known value given without one
+
+
+@dataclass(frozen=True)
+class SweepShape:
+    """Where a planned sweep lies, relative to the expected resonance.
+
+    Attributes
+    ----------
+    span_bw : float
+        Half the span in loaded half-power bandwidths (the sweep covers +-span_bw).
+    points : int
+        Number of frequencies.
+    spacing : str
+        ``"linear"`` or ``"log"`` (geometric) spacing between the end frequencies.
+    offset_bw : float
+        Centre of the sweep, in loaded bandwidths above the resonance.
+    """
+
+    span_bw: float = 3.0
+    points: int = 201
+    spacing: str = "linear"
+    offset_bw: float = 0.0
+
+    def __post_init__(self) -> None:
+        if not (math.isfinite(self.span_bw) and self.span_bw > 0):
+            raise SetupError(
+                f"the span must be above zero bandwidths, not {self.span_bw!r}",
+                remedy="give the half-span in bandwidths, e.g. 3 for +-3 bandwidths",
+            )
+        if self.points < 6:
+            raise SetupError(
+                f"a sweep of {self.points} points cannot determine a resonance",
+                remedy="plan at least 20 points (a fit needs 6 or more)",
+            )
+        if self.spacing not in SPACINGS:
+            raise SetupError(f"unknown spacing {self.spacing!r}", remedy="choose linear or log")
+        if not math.isfinite(self.offset_bw):
+            raise SetupError(f"the centre offset {self.offset_bw!r} is not a number")
+
+    def frequencies(self, f0_hz: float, q_loaded: float) -> np.ndarray:
+        """The planned frequencies for a resonance ``f0_hz`` of loaded Q ``q_loaded``."""
+        ends = [
+            bandwidths_to_hz(x, f0_hz, q_loaded)
+            for x in (self.offset_bw - self.span_bw, self.offset_bw + self.span_bw)
+        ]
+        if self.spacing == "log":
+            return np.geomspace(ends[0], ends[1], self.points)
+        return np.linspace(ends[0], ends[1], self.points)
+
+
+def bandwidths_to_hz(x_bw: float, f0_hz: float, q_loaded: float) -> float:
+    """The frequency ``x_bw`` loaded bandwidths from resonance (``QL y = 2 x``)."""
+    u = x_bw / q_loaded
+    return f0_hz * (u + math.sqrt(1.0 + u * u))
+
+
+def hz_to_bandwidths(freq_hz: float, f0_hz: float, q_loaded: float) -> float:
+    """Inverse of :func:`bandwidths_to_hz`."""
+    return 0.5 * q_loaded * (freq_hz / f0_hz - f0_hz / freq_hz)
+
+
+@dataclass(frozen=True)
+class Bounds:
+    """Cramer-Rao lower bounds on the standard deviations of everything a fit reports.
+
+    Attributes
+    ----------
+    quantities : dict
+        Name (one of :data:`BOUNDED`) -> :class:`~fitkit.result.Quantity`
+        holding the expected value and its bound, or no number and the reason.
+    freq_hz : ndarray
+        The frequencies the bound is for.
+    parameters : list of str
+        The internal parameters, in the order of ``covariance``.
+    covariance : ndarray
+        The bound on the internal parameters' covariance (pseudo-inverse on the
+        determined directions).
+    """
+
+    quantities: dict
+    freq_hz: np.ndarray
+    parameters: list
+    covariance: np.ndarray
+
+    def __getitem__(self, name: str) -> Quantity:
+        return self.quantities[name]
+
+    def relative(self, name: str) -> float | None:
+        """The bound as a fraction of the value; ``None`` when undetermined."""
+        q = self.quantities[name]
+        return None if not q.determined else q.stderr / abs(q.value)
+
+
+def cramer_rao(
+    setup: Setup,
+    freq_hz: np.ndarray,
+    r_ohm: float,
+    l_h: float,
+    c_f: float,
+    noise: Noise,
+    *,
+    complex_data: bool = True,
+    known: dict | None = None,
+) -> Bounds:
+    """The Cramer-Rao lower bound for a series R-L-C measured through a setup.
+
+    Parameters
+    ----------
+    setup : Setup
+        The bench arrangement.
+    freq_hz : ndarray
+        The sweep's frequencies.
+    r_ohm, l_h, c_f : float
+        The expected circuit.
+    noise : Noise
+        ``additive``: sigma per real and per imaginary part (or of the magnitude) in the
+        measured unit; ``relative``: sigma of ln|m| in nepers and of the phase in radians.
+    complex_data : bool
+        Phase is measured too; otherwise magnitude only.
+    known : dict, optional
+        Values measured otherwise, ``{"L": (value, stderr)}``, entered as independent
+        information (a zero stderr counts as 1 ppm).
+
+    Returns
+    -------
+    Bounds
+
+    Raises
+    ------
+    SetupError
+        Non-positive component values, or a noise level that is not positive.
+
+    Examples
+    --------
+    >>> s = Setup("divider", "ratio", sense_ohm=50.0)
+    >>> f = np.linspace(480e3, 530e3, 201)
+    >>> b = cramer_rao(s, f, 5.0, 100e-6, 1e-9, Noise("additive", 1e-3))
+    >>> 0 < b.relative("L") < 0.01
+    True
+    """
+    _check_noise(noise, complex_data)
+    f = np.asarray(freq_hz, dtype=np.float64)
+    f0, ql = resonance(setup, r_ohm, l_h, c_f)
+    w0, loop = TWO_PI * f0, r_ohm + setup.external_ohm
+    names = ["lnf0", "lnql", "lnloop"] + ([] if setup.is_calibrated else ["lngain"])
+    jac = _whitened_jacobian(setup, f, f0, ql, loop, noise, complex_data)[:, : len(names)]
+    grads = _log_gradients(loop, r_ohm, setup.external_ohm, len(names))
+    priors = [_prior_row(name, v, s, grads) for name, (v, s) in (known or {}).items()]
+    cov, null = _covariance(jac, priors)
+    values = {
+        "f0_hz": f0,
+        "Q_loaded": ql,
+        "loaded_bandwidth_hz": f0 / ql,
+        "R": r_ohm,
+        "L": l_h,
+        "C": c_f,
+        "Q": w0 * l_h / r_ohm,
+        "bandwidth_hz": r_ohm / (TWO_PI * l_h),
+    }
+    quantities = {}
+    for name in BOUNDED:
+        g = grads[name]
+        if null.size and np.linalg.norm(null.T @ g) > _LEAK * np.linalg.norm(g):
+            quantities[name] = Quantity(name, None, None, _why_undetermined(setup))
+            continue
+        rel = math.sqrt(max(float(g @ cov @ g), 0.0))
+        quantities[name] = Quantity(name, values[name], rel * abs(values[name]))
+    return Bounds(quantities, f, names, cov)
+
+
+def resonance(setup: Setup, r_ohm: float, l_h: float, c_f: float) -> tuple:
+    """Resonance (Hz) and loaded Q of the expected circuit on this bench.
+
+    Raises
+    ------
+    SetupError
+        When R, L or C is not above zero.
+    """
+    _check_circuit(r_ohm, l_h, c_f)
+    w0 = 1.0 / math.sqrt(l_h * c_f)
+    return w0 / TWO_PI, w0 * l_h / (r_ohm + setup.external_ohm)
+
+
+def _check_circuit(r_ohm: float, l_h: float, c_f: float) -> None:
+    for name, value, unit in (("R", r_ohm, "ohm"), ("L", l_h, "H"), ("C", c_f, "F")):
+        if not (math.isfinite(value) and value > 0):
+            raise SetupError(
+                f"the expected {name} must be above zero, not {value!r} {unit}",
+                remedy="give the circuit you expect, e.g. R=5, L=100u, C=1n",
+            )
+
+
+def _check_noise(noise: Noise, complex_data: bool) -> None:
+    sigmas = [noise.sigma]
+    if complex_data and noise.domain == "relative":
+        sigmas.append(noise.sigma_phase_rad)
+    if not all(s is not None and math.isfinite(s) and s > 0 for s in sigmas):
+        raise SetupError(
+            "the planned noise level must be stated and above zero",
+            remedy="give e.g. --noise 1e-3 (additive) or --noise 0.05dB,0.3deg",
+        )
+
+
+def _whitened_jacobian(setup, f, f0, ql, loop, noise: Noise, complex_data: bool):
+    """Rows: d(residual)/d(ln f0, ln QL, ln loop, ln gain), each divided by its sigma."""
+    x = f / f0
+    y = x - 1.0 / x
+    z = loop * (1.0 + 1j * ql * y) - setup.external_ohm
+    w0 = TWO_PI * f0
+    m = setup.response(
+        series_rlc(f, loop - setup.external_ohm, ql * loop / w0, 1 / (w0 * ql * loop)), f
+    )
+    a, b, c, d = setup.coefficients(f)
+    dm_dz = (a * d - b * c) / (c * z + d) ** 2
+    dz = [-1j * loop * ql * (x + 1.0 / x), 1j * loop * ql * y, loop * (1.0 + 1j * ql * y)]
+    dm = np.column_stack([dm_dz * col for col in dz] + [m])
+    if noise.domain == "relative":
+        dlog = dm / m[:, None]
+        parts = [dlog.real / noise.sigma]
+        if complex_data:
+            parts.append(dlog.imag / noise.sigma_phase_rad)
+    elif complex_data:
+        parts = [dm.real / noise.sigma, dm.imag / noise.sigma]
+    else:
+        parts = [(np.conj(m)[:, None] * dm).real / (np.abs(m)[:, None] * noise.sigma)]
+    return np.vstack(parts)
+
+
+def _log_gradients(loop: float, r_ohm: float, external_ohm: float, size: int) -> dict:
+    """d ln(value) / d(ln f0, ln QL, ln loop[, ln gain]) for every reported value."""
+    rows = {
+        "f0_hz": (1, 0, 0),
+        "Q_loaded": (0, 1, 0),
+        "loaded_bandwidth_hz": (1, -1, 0),
+        "R": (0, 0, loop / r_ohm),
+        "L": (-1, 1, 1),
+        "C": (-1, -1, -1),
+        "Q": (0, 1, -external_ohm / r_ohm),
+        "bandwidth_hz": (1, -1, external_ohm / r_ohm),
+    }
+    return {k: np.array(v + (0,) * (size - 3), dtype=float) for k, v in rows.items()}
+
+
+def _prior_row(name: str, value: float, stderr: float, grads: dict) -> np.ndarray:
+    """A known value as one more whitened row: information on ln(value)."""
+    if name not in ("R", "L", "C") or not value > 0:
+        raise SetupError(
+            f"cannot take a known value {name}={value!r}",
+            remedy="give a known R, L or C above zero, e.g. L=100u+-0.5u",
+        )
+    rel = max(stderr / value, _EXACT_KNOWN)
+    return grads[name] / rel
+
+
+def _covariance(jac: np.ndarray, priors: list) -> tuple:
+    """Bound on the parameter covariance, and the undetermined directions (columns)."""
+    stack = np.vstack([jac] + [p[None, :] for p in priors])
+    scale = np.linalg.norm(stack, axis=0)
+    scale[scale == 0] = 1.0
+    _, s, vt = np.linalg.svd(stack / scale, full_matrices=True)
+    s = np.concatenate([s, np.zeros(vt.shape[0] - s.size)])
+    keep = s > _SINGULAR * s[0]
+    # pseudo-inverse on the determined directions, in the column-scaled coordinates
+    inner = vt[keep].T @ np.diag(1.0 / s[keep] ** 2) @ vt[keep]
+    cov = inner / np.outer(scale, scale)
+    null = (vt[~keep] / scale).T  # open directions in the log parameters, as columns
+    if null.size:
+        null = null / np.linalg.norm(null, axis=0)
+    return cov, null
+
+
+def _why_undetermined(setup: Setup) -> str:
+    if not setup.is_calibrated:
+        return (
+            "an uncalibrated sweep fixes only f0 and the loaded Q; add a scale "
+            "(calibrated ratio, generator amplitude) or a known L or C"
+        )
+    return "the sweep does not determine it (the Fisher matrix is singular)"
+
+
+@dataclass(frozen=True)
+class Plan:
+    """The cheapest sweep on the planner's grid that reaches a requested precision.
+
+    Attributes
+    ----------
+    target : str
+        The value asked about (a name in :data:`BOUNDED`).
+    target_rel : float
+        The requested relative standard deviation.
+    shape : SweepShape or None
+        The cheapest sweep found (fewest points; then the smallest bound), or ``None``.
+    bounds : Bounds or None
+        The bounds for that sweep.
+    averages : int
+        When no sweep on the grid reaches the target: how many sweeps of the best shape
+        to average (noise down by the square root) to reach it; else 1.
+    reason : str
+        Why the target cannot be reached at all, when it cannot.
+    """
+
+    target: str
+    target_rel: float
+    shape: SweepShape | None
+    bounds: Bounds | None
+    averages: int = 1
+    reason: str = ""
+
+
+def plan_sweep(
+    setup: Setup,
+    r_ohm: float,
+    l_h: float,
+    c_f: float,
+    noise: Noise,
+    target: str,
+    target_rel: float,
+    *,
+    complex_data: bool = True,
+    spacing: str = "linear",
+    offset_bw: float = 0.0,
+    known: dict | None = None,
+) -> Plan:
+    """Search spans and point counts for the cheapest sweep that reaches a precision.
+
+    Parameters
+    ----------
+    setup, r_ohm, l_h, c_f, noise, complex_data, known
+        As for :func:`cramer_rao`.
+    target : str
+        The value to pin down, e.g. ``"L"`` or ``"Q"``.
+    target_rel : float
+        Its wanted relative standard deviation, e.g. 0.005 for 0.5%.
+    spacing, offset_bw
+        Held fixed while the span (:data:`PLAN_SPANS_BW`) and the point count
+        (:data:`PLAN_POINTS`) are searched.
+
+    Returns
+    -------
+    Plan
+        Fewest points first (the cost of a sweep), then the smallest bound.
+
+    Raises
+    ------
+    SetupError
+        An unknown target or a target precision that is not above zero.
+    """
+    if target not in BOUNDED:
+        raise SetupError(
+            f"cannot plan for {target!r}",
+            remedy="name one of: " + ", ".join(BOUNDED),
+        )
+    if not (math.isfinite(target_rel) and target_rel > 0):
+        raise SetupError(f"the target precision must be above zero, not {target_rel!r}")
+    f0, ql = resonance(setup, r_ohm, l_h, c_f)
+    best = None  # (rel, shape, bounds)
+    for points in PLAN_POINTS:
+        found = None
+        for span in PLAN_SPANS_BW:
+            shape = SweepShape(span, points, spacing, offset_bw)
+            b = cramer_rao(
+                setup,
+                shape.frequencies(f0, ql),
+                r_ohm,
+                l_h,
+                c_f,
+                noise,
+                complex_data=complex_data,
+                known=known,
+            )
+            rel = b.relative(target)
+            if rel is None:
+                return Plan(target, target_rel, None, None, 1, b[target].reason)
+            if best is None or rel < best[0]:
+                best = (rel, shape, b)
+            if rel <= target_rel and (found is None or rel < found[0]):
+                found = (rel, shape, b)
+        if found is not None:
+            return Plan(target, target_rel, found[1], found[2])
+    averages = math.ceil((best[0] / target_rel) ** 2)
+    return Plan(target, target_rel, best[1], best[2], averages)
