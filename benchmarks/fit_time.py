@@ -47,8 +47,8 @@ def main() -> None:
     print(f"{'setup':<22} {'fitkit ms':>10} {'bare lsq ms':>12} {'ratio':>6}")
     for name, setup in sorted(SETUPS.items()):
         sweep = make_sweep(setup, seed=1, points=1001)
-        fk = median_ms(lambda: fit_sweep(sweep, setup))
-        bare = median_ms(lambda: bare_solve(sweep, setup))
+        fk = median_ms(lambda s=sweep, st=setup: fit_sweep(s, st))
+        bare = median_ms(lambda s=sweep, st=setup: bare_solve(s, st))
         print(f"{name:<22} {fk:>10.2f} {bare:>12.2f} {fk / bare:>6.1f}")
 
 

@@ -111,6 +111,8 @@ def _choose(sweep, setup, known, noise_model, keep_outliers, skin) -> CircuitFit
             trials[name] = (problem, problem.first_pass(noise_model, keep_outliers))
         except FitError as exc:
             failed[name] = exc.message
+        except (ArithmeticError, ValueError, np.linalg.LinAlgError) as exc:
+            failed[name] = f"numerical failure: {exc}"
     if not trials:
         reasons = "; ".join(f"{n}: {m}" for n, m in failed.items())
         raise FitError(
@@ -243,12 +245,17 @@ class _Problem:
 
     # -- parameters and identifiability --------------------------------------------------
     def parameters(self, start: Start) -> tuple:
+        # generous bounds keep a wandering candidate model finite; a fit that ends on
+        # one is reported (values at a bound are not trusted)
+        lo, hi = math.log(self.f[0]), math.log(self.f[-1])
         params = lmfit.Parameters()
-        params.add("lnf0", value=math.log(start.f0_hz))
-        params.add("lnq", value=math.log(max(start.q, 1e-3)))
-        params.add("lnscale", value=math.log(start.scale_ohm), vary=not self.known)
+        params.add("lnf0", value=math.log(start.f0_hz), min=lo - 3.0, max=hi + 3.0)
+        params.add("lnq", value=math.log(min(max(start.q, 0.02), 1e6)), min=-5.0, max=16.0)
+        params.add(
+            "lnscale", value=math.log(start.scale_ohm), min=-14.0, max=28.0, vary=not self.known
+        )
         for name in self.topology.extras:
-            params.add(f"ln_{name}", value=math.log(start.extras[name]))
+            params.add(f"ln_{name}", value=math.log(start.extras[name]), min=lo - 5.0, max=hi + 7.0)
         params.add("gain", value=start.gain, vary=not self.setup.is_calibrated)
         null_dirs = self.null_directions(params)
         if null_dirs and params["lnscale"].vary:

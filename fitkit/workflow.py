@@ -18,6 +18,9 @@ def fit_file(
     known: tuple = (),
     noise: str | None = None,
     keep_outliers: bool = False,
+    topology: str = "auto",
+    skin_above_hz: float | None = None,
+    columns: dict | None = None,
 ) -> tuple[CircuitFit, Path | None]:
     """Fit the sweep in a file; the setup file beside it is used unless one is given.
 
@@ -36,6 +39,13 @@ def fit_file(
         A stated noise level; estimated when omitted.
     keep_outliers : bool
         Keep outlying points.
+    topology : str
+        ``"auto"`` (fit each model, keep the best by BIC) or ``"series"``, ``"tank"``,
+        ``"coil"``.
+    skin_above_hz : float, optional
+        The loss grows as sqrt(f) above this frequency.
+    columns : dict, optional
+        Column overrides for the reader; they win over the setup file's ``[columns]``.
 
     Returns
     -------
@@ -49,8 +59,16 @@ def fit_file(
     """
     bench_path = find_bench_file(sweep_path, setup_path)
     file = load_bench_file(bench_path) if bench_path else {}
-    sweep = read_sweep(sweep_path, columns=file.get("columns") or None)
+    sweep = read_sweep(sweep_path, columns=columns or file.get("columns") or None)
     setup = build_setup(sweep, file.get("bench"), overrides or {})
     known_map = known_values(file.get("known"), tuple(known))
-    fit = fit_sweep(sweep, setup, known=known_map, noise=noise, keep_outliers=keep_outliers)
+    fit = fit_sweep(
+        sweep,
+        setup,
+        topology=topology,
+        known=known_map,
+        noise=noise,
+        keep_outliers=keep_outliers,
+        skin_above_hz=skin_above_hz,
+    )
     return fit, bench_path

@@ -10,9 +10,12 @@ from fitkit.bench_file import (
     DEFAULT_NAME,
 )
 from fitkit.cli.base import main, reports_errors
+from fitkit.cli.read_options import columns_from_options, read_options
 from fitkit.errors import InputError
 from fitkit.report.table import fit_table
 from fitkit.setups import BENCHES, DISPLAYS, REFERENCES
+from fitkit.topologies import TOPOLOGIES
+from fitkit.units import parse_quantity
 from fitkit.workflow import fit_file
 
 
@@ -85,17 +88,32 @@ def overrides_from_options(opts: dict) -> dict:
 @main.command("fit")
 @click.argument("sweep_file", type=click.Path(dir_okay=False))
 @bench_options
+@read_options
 @click.option(
     "--noise",
     help="Stated noise: '0.05dB', '0.05dB,0.3deg', '1%' or an additive '2e-3'. "
     "Default: estimated from the residuals.",
+)
+@click.option(
+    "--model",
+    type=click.Choice(["auto", *TOPOLOGIES]),
+    default="auto",
+    show_default=True,
+    help="Circuit model: series R-L-C, tank (coil with loss across C), coil (with "
+    "self-capacitance, in series with C), or auto: fit each, keep the best by BIC.",
+)
+@click.option(
+    "--skin-above",
+    help="The loss grows as sqrt(f) above this frequency (skin effect), e.g. 200k.",
 )
 @click.option("--keep-outliers", is_flag=True, help="Do not refit without outlying points.")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of a table.")
 @click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="Write a plot (PNG).")
 @click.option("--force", is_flag=True, help="Replace an existing plot file.")
 @reports_errors
-def fit_command(sweep_file, noise, keep_outliers, as_json, plot_path, force, **opts):
+def fit_command(
+    sweep_file, noise, model, skin_above, keep_outliers, as_json, plot_path, force, **opts
+):
     """Fit a series R-L-C to SWEEP_FILE and print R, L, C, f0, Q and bandwidth.
 
     Every value comes with its standard uncertainty; values the sweep cannot determine
@@ -114,6 +132,11 @@ def fit_command(sweep_file, noise, keep_outliers, as_json, plot_path, force, **o
         known=opts.get("known", ()),
         noise=noise,
         keep_outliers=keep_outliers,
+        topology=model,
+        skin_above_hz=parse_quantity(skin_above, "Hz", what="skin-effect frequency")
+        if skin_above
+        else None,
+        columns=columns_from_options(**opts),
     )
     if plot_path:
         from fitkit.report.plots import plot_fit
