@@ -176,8 +176,13 @@ def values_from_fit(fit: CircuitFit) -> dict:
     Raises
     ------
     PredictionError
-        When the fit did not determine one of them.
+        When the fit is not of a series circuit or did not determine one of the values.
     """
+    if fit.topology != "series":
+        raise PredictionError(
+            f"predictions cover the series R-L-C; this fit is a {fit.topology} circuit",
+            remedy="fit the sweep as a series circuit, or type R, L and C with --value",
+        )
     missing = [n for n in COMPONENTS if not fit[n].determined]
     if missing:
         why = fit[missing[0]].reason
