@@ -76,7 +76,8 @@ def find_inputs(items: Iterable[str], *, skip: Path | None = None) -> list[Path]
     return unique
 
 
-def _sha256(path: Path) -> str | None:
+def file_sha256(path: Path) -> str | None:
+    """The SHA-256 of a file's bytes, or None when it cannot be read."""
     try:
         return hashlib.sha256(path.read_bytes()).hexdigest()
     except OSError:
@@ -87,11 +88,24 @@ def record_key(path: Path, settings: dict) -> tuple[str | None, str]:
     """(SHA-256 of the file or None when unreadable, the record key for these settings)."""
     from fitkit.bench_file import find_bench_file
 
-    sha = _sha256(path)
+    sha = file_sha256(path)
     bench = find_bench_file(path, settings.get("setup_path"))
-    bench_sha = _sha256(bench) if bench else None
+    bench_sha = file_sha256(bench) if bench else None
     text = json.dumps([sha or str(path), bench_sha, settings], sort_keys=True, default=str)
     return sha, hashlib.sha256(text.encode()).hexdigest()[:32]
+
+
+def fit_with(path: str | Path, settings: dict):
+    """:func:`fitkit.workflow.fit_file` with the batch's settings dict."""
+    from fitkit.workflow import fit_file
+
+    return fit_file(
+        path,
+        setup_path=settings.get("setup_path"),
+        overrides=settings.get("overrides"),
+        known=tuple(settings.get("known", ())),
+        noise=settings.get("noise"),
+    )
 
 
 def fit_one(path: str, sha: str | None, key: str, settings: dict, records_dir: str) -> dict:
@@ -99,17 +113,9 @@ def fit_one(path: str, sha: str | None, key: str, settings: dict, records_dir: s
 
     This is what each worker process runs.
     """
-    from fitkit.workflow import fit_file
-
     record = {"file": path, "sha256": sha, "key": key, "setup_file": None, "fit": None}
     try:
-        fit, bench = fit_file(
-            path,
-            setup_path=settings.get("setup_path"),
-            overrides=settings.get("overrides"),
-            known=tuple(settings.get("known", ())),
-            noise=settings.get("noise"),
-        )
+        fit, bench = fit_with(path, settings)
         record.update(status=FITTED, reason="", fit=fit.to_dict())
         record["setup_file"] = str(bench) if bench else None
     except FitkitError as exc:
