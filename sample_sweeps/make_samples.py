@@ -12,7 +12,8 @@ from pathlib import Path
 
 import numpy as np
 
-from fitkit.circuits import series_rlc
+from fitkit.circuits import coil_in_series, series_rlc, tank
+from fitkit.readers import write_touchstone
 from fitkit.setups import Setup
 
 HERE = Path(__file__).resolve().parent
@@ -41,8 +42,11 @@ def hand_wound_series(rng: np.random.Generator) -> None:
     gain_db[97] += 2.5  # a glitch when the scope switched range
     _write(
         folder / "sweep.csv",
-        ["# scope frequency response export", "# probe 10x on channel 2",
-         "Frequency (kHz),Gain (dB),Phase (deg)"],
+        [
+            "# scope frequency response export",
+            "# probe 10x on channel 2",
+            "Frequency (kHz),Gain (dB),Phase (deg)",
+        ],
         [f / 1e3, gain_db, phase],
         ["{:.4f}", "{:.3f}", "{:.2f}"],
     )
@@ -63,7 +67,11 @@ def single_channel_volts(rng: np.random.Generator) -> None:
     folder = HERE / "single_channel_volts"
     r, l_h, c_f = 3.3, 150e-6, 680e-12
     setup = Setup(
-        "divider", "volts", sense_ohm=100.0, reference="open-circuit", amplitude_vrms=1.0,
+        "divider",
+        "volts",
+        sense_ohm=100.0,
+        reference="open-circuit",
+        amplitude_vrms=1.0,
         display="open-circuit",
     )
     f = np.linspace(400e3, 1100e3, 141)
@@ -84,10 +92,56 @@ def single_channel_volts(rng: np.random.Generator) -> None:
     )
 
 
+def hand_wound_tank(rng: np.random.Generator) -> None:
+    """A hand-wound coil across a 470 pF silver-mica capacitor, read on an impedance
+    analyser that exports |Z| in ohm and phase in degrees (error about 0.2% of reading)."""
+    folder = HERE / "hand_wound_tank"
+    r, l_h, c_f = 12.0, 330e-6, 470e-12
+    f = np.geomspace(300e3, 600e3, 301)
+    z = tank(f, r, l_h, c_f) * np.exp(
+        0.002 * (rng.normal(size=f.size) + 1j * rng.normal(size=f.size))
+    )
+    _write(
+        folder / "sweep.csv",
+        ["# impedance analyser export", "Freq (Hz);|Z| (ohm);Phase (deg)"],
+        [f, np.abs(z), np.degrees(np.angle(z))],
+        ["{:.2f}", "{:.3f}", "{:.3f}"],
+    )
+    text = (folder / "sweep.csv").read_text(encoding="utf-8").replace(",", ";")
+    (folder / "sweep.csv").write_text(text, encoding="utf-8")
+
+
+def coil_self_resonance(rng: np.random.Generator) -> None:
+    """A single-layer coil, 40 turns on a 25 mm former over 30 mm, in series with a 100 pF
+    capacitor, swept 1 to 45 MHz on a network analyser in series-through (Touchstone)."""
+    folder = HERE / "coil_self_resonance"
+    folder.mkdir(parents=True, exist_ok=True)
+    r, l_h, c_f, cself_f = 1.6, 24.6e-6, 100e-12, 1.3e-12
+    f = np.linspace(1e6, 45e6, 441)
+    setup = Setup("series-through", "s21", z0_ohm=50.0)
+    s21 = setup.response(coil_in_series(f, r, l_h, c_f, cself_f), f)
+    s21 = s21 + 2e-4 * (rng.normal(size=f.size) + 1j * rng.normal(size=f.size))
+    s11 = np.zeros_like(s21)
+    data = np.stack([np.stack([s11, s21], axis=-1), np.stack([s21, s11], axis=-1)], axis=-2)
+    write_touchstone(
+        folder / "coil_in_series.s2p",
+        f,
+        data,
+        fmt="RI",
+        freq_unit="MHz",
+        reference_ohm=50.0,
+        version="1.1",
+        parameter="S",
+        comments=["coil in series with 100 pF, series-through fixture; only S21 measured"],
+    )
+
+
 def main() -> None:
     rng = np.random.default_rng(20261201)
     hand_wound_series(rng)
     single_channel_volts(rng)
+    hand_wound_tank(rng)
+    coil_self_resonance(rng)
 
 
 if __name__ == "__main__":

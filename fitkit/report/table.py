@@ -57,8 +57,17 @@ def fit_table(fit: CircuitFit) -> str:
     for note in fit.sweep.get("notes", []):
         lines.append(f"  reader:  {note}")
     for key, value in fit.sweep.get("metadata", {}).items():
+        if key in _FORMAT_FACTS:
+            continue
+        if key == "reference_ohm" and fit.setup["bench"] not in ("divider", "impedance"):
+            lines.append(f"  the file states its reference impedance, {value} ohm (used)")
+            continue
         lines.append(f"  the file states {key} = {value} (shown for you to confirm; not used)")
     return "\n".join(lines)
+
+
+#: what a Touchstone file says about its own layout, not about the bench
+_FORMAT_FACTS = {"touchstone_version", "ports", "parameter_written", "format"}
 
 
 def _sweep_line(info: dict) -> str:
