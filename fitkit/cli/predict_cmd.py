@@ -167,7 +167,7 @@ def _typed_values(typed) -> dict:
     values = {}
     for text in typed:
         name, (value, err) = parse_known(text)
-        values[name] = ufloat(value, err)
+        values[name] = ufloat(value, err) if err else value  # a zero error is no error
     missing = [n for n in COMPONENTS if n not in values]
     if missing:
         raise PredictionError(
@@ -254,13 +254,20 @@ def _parse_carrier(text: str, wanted_hz: float | None, where: str) -> Carrier:
     return Carrier(wanted_hz + freq if offset else freq, level, label)
 
 
+def _parts(x) -> tuple:
+    """Value and standard error of a float or an ``uncertainties`` value."""
+    return float(getattr(x, "nominal_value", x)), float(getattr(x, "std_dev", 0.0))
+
+
 def _db(x) -> str:
-    text = format_quantity(x.nominal_value, "", x.std_dev)
+    value, err = _parts(x)
+    text = format_quantity(value, "", err)
     return " +/- ".join(part + " dB" for part in text.split(" +/- "))
 
 
 def _u(x, unit: str) -> str:
-    return format_quantity(x.nominal_value, unit, getattr(x, "std_dev", None))
+    value, err = _parts(x)
+    return format_quantity(value, unit, err)
 
 
 def prediction_table(p: Prediction, origin: str) -> str:
@@ -308,7 +315,7 @@ def _band_lines(p: Prediction) -> list:
 
 def _limit_lines(p: Prediction) -> list:
     lim = p.limit
-    meets = p.values["R"].nominal_value <= lim.r_max_ohm.nominal_value
+    meets = _parts(p.values["R"])[0] <= _parts(lim.r_max_ohm)[0]
     return [
         f"  need     {lim.required_db:g} dB against every carrier; binding carrier "
         f"{format_quantity(lim.binding.freq_hz, 'Hz')}",
@@ -328,7 +335,7 @@ def plot_prediction(p: Prediction, path) -> None:
     import numpy as np
 
     marks = [p.wanted_hz] + [r.carrier.freq_hz for r in p.carriers]
-    width = 4.0 * p.wanted_hz / max(p.q_loaded.nominal_value, 1.0)
+    width = 4.0 * p.wanted_hz / max(_parts(p.q_loaded)[0], 1.0)
     lo = max(min(min(marks) / 1.05, p.wanted_hz - width), p.wanted_hz / 10.0)
     hi = max(max(marks) * 1.05, p.wanted_hz + width)
     freq = np.geomspace(lo, hi, 1500)
@@ -336,11 +343,11 @@ def plot_prediction(p: Prediction, path) -> None:
     ax.semilogx(freq, response_db(freq, p.wanted_hz, p.values, p.chain), color="C0")
     ax.axvline(p.wanted_hz, color="C2", linestyle="--", label="wanted")
     for i, r in enumerate(p.carriers):
-        rej = r.rejection_db
-        ax.plot(r.carrier.freq_hz, -rej.nominal_value, "o", color="C3")
+        rej, err = _parts(r.rejection_db)
+        ax.plot(r.carrier.freq_hz, -rej, "o", color="C3")
         ax.annotate(
-            f"{rej.nominal_value:.1f} +/- {rej.std_dev:.1g} dB",
-            (r.carrier.freq_hz, -rej.nominal_value),
+            f"{rej:.1f} +/- {err:.1g} dB",
+            (r.carrier.freq_hz, -rej),
             textcoords="offset points",
             xytext=(4, -12 - 10 * (i % 4)),  # staggered: neighbours sit close
             fontsize=8,
