@@ -1,0 +1,98 @@
+"""``fitkit drift``: compare a unit with a reference and say which part changed."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import click
+
+from fitkit.cli.base import main, reports_errors
+from fitkit.cli.fit_cmd import bench_options, overrides_from_options
+from fitkit.drift import SIGNIFICANT_Z, compare, fit_values, reading
+from fitkit.errors import InputError
+from fitkit.result import QUANTITIES, load_fit
+from fitkit.spec import SPEC_NAMES, load_spec
+from fitkit.units import format_quantity, parse_quantity
+from fitkit.workflow import fit_file
+
+
+def _values_of(path: str, fit_options: dict) -> dict:
+    """Values of a saved fit (.json) or of a sweep fitted now."""
+    if Path(path).suffix.lower() == ".json":
+        return fit_values(load_fit(path))
+    return fit_values(fit_file(path, **fit_options)[0])
+
+
+def _nominals(typed: tuple, spec_file: str | None) -> dict:
+    out = {}
+    if spec_file:
+        out.update({q: (v, 0.0) for q, v in load_spec(spec_file).nominals().items()})
+    for item in typed:
+        name, sep, text = item.partition("=")
+        if not sep or name.strip() not in SPEC_NAMES:
+            raise InputError(
+                f"--nominal {item!r} is not NAME=VALUE",
+                remedy=f"write e.g. --nominal C=2.2n; NAME one of {', '.join(SPEC_NAMES)}",
+            )
+        quantity, unit = SPEC_NAMES[name.strip()]
+        value = float(text) if not unit else parse_quantity(text, unit, what=f"nominal {name}")
+        out[quantity] = (value, 0.0)
+    return out
+
+
+@main.command("drift")
+@click.argument("unit")
+@click.option("--against", "reference", help="Reference: an earlier fit (JSON) or a sweep.")
+@click.option(
+    "--nominal", multiple=True, metavar="NAME=VALUE", help="A nominal value, e.g. C=2.2n."
+)
+@click.option("--spec", "spec_file", type=click.Path(dir_okay=False), help="Nominals from a spec.")
+@bench_options
+@click.option("--noise", help="Stated noise for sweeps (as for 'fitkit fit').")
+@click.option("--json", "as_json", is_flag=True, help="Print one JSON object.")
+@reports_errors
+def drift_command(unit, reference, nominal, spec_file, noise, as_json, **opts):
+    """Compare UNIT (a sweep or a saved fit) with a reference and read what changed.
+
+    The reference is --against (the unit's earlier fit, or a golden unit's sweep or fit)
+    or nominal values (--nominal, --spec; taken as exact). Each change comes with its
+    combined uncertainty sqrt(u^2 + u_ref^2) and z; |z| > 2 counts as a change.
+    """
+    if bool(reference) == bool(nominal or spec_file):
+        raise InputError(
+            "give one reference",
+            remedy="use --against FIT_OR_SWEEP, or nominal values (--nominal, --spec)",
+        )
+    fit_options = {
+        "setup_path": opts.pop("setup_file"),
+        "overrides": overrides_from_options(opts),
+        "known": opts.get("known", ()),
+        "noise": noise,
+    }
+    ref = _values_of(reference, fit_options) if reference else _nominals(nominal, spec_file)
+    changes = compare(_values_of(unit, fit_options), ref)
+    if not changes:
+        raise InputError(
+            "the unit and the reference share no determined value",
+            remedy="give nominals for values the unit's sweep determines (f0, Q_loaded, ...)",
+            path=unit,
+        )
+    words = reading(changes)
+    if as_json:
+        data = {"changes": {c.name: c.to_dict() for c in changes}, "reading": words}
+        click.echo(json.dumps(data, indent=2, allow_nan=False))
+        return
+    click.echo(f"{unit} against {reference or 'nominal values'}")
+    for c in changes:
+        unit_name, label = QUANTITIES[c.name]
+        ref_u = c.reference_u or None
+        click.echo(
+            f"  {label:<33} {format_quantity(c.reference, unit_name, ref_u):>28} -> "
+            f"{format_quantity(c.value, unit_name, c.value_u or None):>28}  "
+            f"change {c.relative * 100:+7.2f}% +/- {c.u / abs(c.reference) * 100:.2f}%  "
+            f"z = {c.z:+.1f}"
+        )
+    click.echo(f"  (a change counts when |z| > {SIGNIFICANT_Z:g}; u = sqrt(u^2 + u_ref^2))")
+    for line in words:
+        click.echo(f"  reading: {line}")
