@@ -114,7 +114,10 @@ def overrides_from_options(opts: dict) -> dict:
 def fit_command(
     sweep_file, noise, model, skin_above, keep_outliers, as_json, plot_path, force, **opts
 ):
-    """Fit a series R-L-C to SWEEP_FILE and print R, L, C, f0, Q and bandwidth.
+    """Fit a circuit to SWEEP_FILE and print R, L, C, f0, Q and bandwidth.
+
+    The model is a series R-L-C, a parallel tank or a coil with self-capacitance
+    (--model; by default each is tried and the best by BIC is kept, with the reason).
 
     Every value comes with its standard uncertainty; values the sweep cannot determine
     are named, with what would determine them. Exit status 2 on bad input or a failed fit.
