@@ -615,8 +615,19 @@ def predict(
     )
 
 
+def value_and_error(x) -> tuple:
+    """Value and standard error of a float or an ``uncertainties`` value.
+
+    An error below 1e-9 of the value is rounding left over where the error cancels
+    exactly (the smallest loaded Q for a resistive chain does not depend on L), so it is 0.
+    """
+    value, err = _nominal(x), float(getattr(x, "std_dev", 0.0))
+    return value, (0.0 if err <= 1e-9 * abs(value) else err)
+
+
 def _udict(x, unit: str) -> dict:
-    return {"value": _nominal(x), "stderr": float(getattr(x, "std_dev", 0.0)), "unit": unit}
+    value, err = value_and_error(x)
+    return {"value": value, "stderr": err, "unit": unit}
 
 
 def _nominal(x) -> float:

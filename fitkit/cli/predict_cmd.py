@@ -20,6 +20,7 @@ from fitkit.predict import (
     chain_from_setup,
     predict,
     response_db,
+    value_and_error,
     values_from_fit,
 )
 from fitkit.rasters import RASTERS, get_raster
@@ -254,19 +255,14 @@ def _parse_carrier(text: str, wanted_hz: float | None, where: str) -> Carrier:
     return Carrier(wanted_hz + freq if offset else freq, level, label)
 
 
-def _parts(x) -> tuple:
-    """Value and standard error of a float or an ``uncertainties`` value."""
-    return float(getattr(x, "nominal_value", x)), float(getattr(x, "std_dev", 0.0))
-
-
 def _db(x) -> str:
-    value, err = _parts(x)
+    value, err = value_and_error(x)
     text = format_quantity(value, "", err)
     return " +/- ".join(part + " dB" for part in text.split(" +/- "))
 
 
 def _u(x, unit: str) -> str:
-    value, err = _parts(x)
+    value, err = value_and_error(x)
     return format_quantity(value, unit, err)
 
 
@@ -315,7 +311,7 @@ def _band_lines(p: Prediction) -> list:
 
 def _limit_lines(p: Prediction) -> list:
     lim = p.limit
-    meets = _parts(p.values["R"])[0] <= _parts(lim.r_max_ohm)[0]
+    meets = value_and_error(p.values["R"])[0] <= value_and_error(lim.r_max_ohm)[0]
     return [
         f"  need     {lim.required_db:g} dB against every carrier; binding carrier "
         f"{format_quantity(lim.binding.freq_hz, 'Hz')}",
@@ -335,7 +331,7 @@ def plot_prediction(p: Prediction, path) -> None:
     import numpy as np
 
     marks = [p.wanted_hz] + [r.carrier.freq_hz for r in p.carriers]
-    width = 4.0 * p.wanted_hz / max(_parts(p.q_loaded)[0], 1.0)
+    width = 4.0 * p.wanted_hz / max(value_and_error(p.q_loaded)[0], 1.0)
     lo = max(min(min(marks) / 1.05, p.wanted_hz - width), p.wanted_hz / 10.0)
     hi = max(max(marks) * 1.05, p.wanted_hz + width)
     freq = np.geomspace(lo, hi, 1500)
@@ -343,7 +339,7 @@ def plot_prediction(p: Prediction, path) -> None:
     ax.semilogx(freq, response_db(freq, p.wanted_hz, p.values, p.chain), color="C0")
     ax.axvline(p.wanted_hz, color="C2", linestyle="--", label="wanted")
     for i, r in enumerate(p.carriers):
-        rej, err = _parts(r.rejection_db)
+        rej, err = value_and_error(r.rejection_db)
         ax.plot(r.carrier.freq_hz, -rej, "o", color="C3")
         ax.annotate(
             f"{rej:.1f} +/- {err:.1g} dB",
