@@ -307,8 +307,9 @@ def _covariance(jac: np.ndarray, priors: list) -> tuple:
     stack = np.vstack([jac] + [p[None, :] for p in priors])
     scale = np.linalg.norm(stack, axis=0)
     scale[scale == 0] = 1.0
-    _, s, vt = np.linalg.svd(stack / scale, full_matrices=True)
-    s = np.concatenate([s, np.zeros(vt.shape[0] - s.size)])
+    # the small triangular factor has the same singular values and right vectors
+    tri = np.linalg.qr(stack / scale, mode="r")
+    _, s, vt = np.linalg.svd(tri)
     keep = s > _SINGULAR * s[0]
     # pseudo-inverse on the determined directions, in the column-scaled coordinates
     inner = vt[keep].T @ np.diag(1.0 / s[keep] ** 2) @ vt[keep]
