@@ -280,14 +280,14 @@ def prediction_table(p: Prediction, origin: str) -> str:
         f"(R + {format_quantity(p.chain.loop_ohm, 'ohm')} of the chain in the loop)",
     ]
     if p.carriers:
-        head = f"  {'carrier':<14}{'offset':>12}{'level':>9}   {'rejection':<27}S/I at the output"
+        head = f"  {'carrier':<14}{'offset':>12}{'level':>9}   {'rejection':<27}  S/I at the output"
         lines += ["", head]
         for r in p.carriers:
             off = r.carrier.freq_hz - p.wanted_hz
             lines.append(
                 f"  {format_quantity(r.carrier.freq_hz, 'Hz'):<14}"
                 f"{('+' if off >= 0 else '-') + format_quantity(abs(off), 'Hz'):>12}"
-                f"{r.carrier.level_db:>+7.1f}dB   {_db(r.rejection_db):<27}{_db(r.sir_db)}"
+                f"{r.carrier.level_db:>+7.1f}dB   {_db(r.rejection_db):<27}  {_db(r.sir_db)}"
                 + (f"  ({r.carrier.label})" if r.carrier.label else "")
             )
     if p.band is not None:
