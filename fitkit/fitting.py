@@ -22,6 +22,7 @@ from pathlib import Path
 
 import lmfit
 import numpy as np
+from scipy.optimize import least_squares
 from uncertainties import correlated_values, covariance_matrix, ufloat, umath
 
 from fitkit.errors import FitError, SetupError
@@ -120,15 +121,15 @@ def _choose(sweep, setup, known, noise_model, keep_outliers, skin) -> CircuitFit
             remedy="check the setup values and that the sweep covers the resonance",
             path=sweep.source,
         )
-    best = min(trials, key=lambda n: trials[n][1].result.redchi)
+    best = min(trials, key=lambda n: trials[n][1].redchi)
     sigmas = noise_model if noise_model.stated else trials[best][0].estimate_noise(trials[best][1])
     common = np.arange(sweep.points)
     for _, first in trials.values():
         common = np.intersect1d(common, first.used)
     bic = {}
     for name, (problem, first) in trials.items():
-        resid = problem.residual(first.result.params, common, sigmas)
-        k = len(_varied(first.result.params))
+        resid = problem.residual(first.params, common, sigmas)
+        k = len(_varied(first.params))
         bic[name] = float(np.sum(resid**2) + k * math.log(resid.size))
     ranked = sorted(bic, key=bic.get)
     winner = ranked[0]
@@ -178,8 +179,8 @@ def _check_known(known: dict) -> dict:
 class _FirstPass:
     """A fit with unit weights on the points kept, and what it found on the way."""
 
-    def __init__(self, result, used, outliers, start: Start, null_dirs: list, domain: str):
-        self.result, self.used, self.outliers = result, used, outliers
+    def __init__(self, params, redchi, used, outliers, start: Start, null_dirs, domain: str):
+        self.params, self.redchi, self.used, self.outliers = params, redchi, used, outliers
         self.start, self.null_dirs, self.domain = start, null_dirs, domain
 
 
@@ -191,9 +192,18 @@ class _Problem:
         self.known, self.skin = known, skin
         self.f = sweep.freq_hz
         self.data = sweep.values
+        # generous bounds keep a wandering candidate model finite; a fit that ends on
+        # one is reported (values at a bound are not trusted)
+        lo, hi = math.log(self.f[0]), math.log(self.f[-1])
+        self.bounds = {"lnf0": (lo - 3.0, hi + 3.0), "lnq": (-5.0, 16.0), "lnscale": (-14.0, 28.0)}
+        self.bounds.update({f"ln_{e}": (lo - 5.0, hi + 7.0) for e in topology.extras})
 
     # -- the model in internal parameters -------------------------------------------------
     def state(self, values: dict) -> tuple:
+        values = {
+            k: min(max(v, self.bounds[k][0]), self.bounds[k][1]) if k in self.bounds else v
+            for k, v in values.items()
+        }
         f0 = math.exp(values["lnf0"])
         q = math.exp(values["lnq"])
         if self.known:
@@ -235,7 +245,10 @@ class _Problem:
         return np.log(np.abs(ratio)), None
 
     def residual(self, params, idx, noise: Noise) -> np.ndarray:
-        a, b = self.raw_residual(params.valuesdict(), idx, noise.domain)
+        return self.residual_values(params.valuesdict(), idx, noise)
+
+    def residual_values(self, values: dict, idx, noise: Noise) -> np.ndarray:
+        a, b = self.raw_residual(values, idx, noise.domain)
         parts = [a / noise.sigma]
         if b is not None:
             phase_sigma = noise.sigma if noise.domain == "additive" else noise.sigma_phase_rad
@@ -247,15 +260,14 @@ class _Problem:
     def parameters(self, start: Start) -> tuple:
         # generous bounds keep a wandering candidate model finite; a fit that ends on
         # one is reported (values at a bound are not trusted)
-        lo, hi = math.log(self.f[0]), math.log(self.f[-1])
         params = lmfit.Parameters()
-        params.add("lnf0", value=math.log(start.f0_hz), min=lo - 3.0, max=hi + 3.0)
-        params.add("lnq", value=math.log(min(max(start.q, 0.02), 1e6)), min=-5.0, max=16.0)
-        params.add(
-            "lnscale", value=math.log(start.scale_ohm), min=-14.0, max=28.0, vary=not self.known
-        )
+        params.add("lnf0", value=math.log(start.f0_hz))
+        params.add("lnq", value=math.log(min(max(start.q, 0.02), 1e6)))
+        params.add("lnscale", value=math.log(start.scale_ohm), vary=not self.known)
         for name in self.topology.extras:
-            params.add(f"ln_{name}", value=math.log(start.extras[name]), min=lo - 5.0, max=hi + 7.0)
+            params.add(f"ln_{name}", value=math.log(start.extras[name]))
+        for name, (low, high) in self.bounds.items():
+            params[name].set(min=low, max=high)
         params.add("gain", value=start.gain, vary=not self.setup.is_calibrated)
         null_dirs = self.null_directions(params)
         if null_dirs and params["lnscale"].vary:
@@ -276,13 +288,12 @@ class _Problem:
         base = params.valuesdict()
         idx = np.arange(self.sweep.points)
         noise = Noise("additive", _UNIT_NOISE)
-        r0 = self.residual(params, idx, noise)
+        r0 = self.residual_values(base, idx, noise)
         cols = []
         for name in names:
-            shifted = params.copy()
             step = 1e-6 * max(1.0, abs(base[name]))
-            shifted[name].set(value=base[name] + step)
-            cols.append((self.residual(shifted, idx, noise) - r0) / step)
+            shifted = {**base, name: base[name] + step}
+            cols.append((self.residual_values(shifted, idx, noise) - r0) / step)
         jac = np.column_stack(cols)
         norms = np.linalg.norm(jac, axis=0)
         norms[norms == 0] = 1.0
@@ -290,6 +301,22 @@ class _Problem:
         return [dict(zip(names, vt[i] / norms)) for i in range(len(s)) if s[i] < _SINGULAR * s[0]]
 
     # -- fitting passes -------------------------------------------------------------------
+    def quick_minimize(self, params, idx, noise: Noise) -> tuple:
+        """Levenberg-Marquardt straight on scipy, for the passes that need no covariance."""
+        names = _varied(params)
+        base = params.valuesdict()
+
+        def fun(x):
+            return self.residual_values({**base, **dict(zip(names, x))}, idx, noise)
+
+        sol = least_squares(fun, [base[n] for n in names], method="lm", x_scale="jac")
+        out = params.copy()
+        for name, value in zip(names, sol.x):
+            low, high = self.bounds.get(name, (-np.inf, np.inf))
+            out[name].set(value=min(max(value, low), high))
+        nfree = max(sol.fun.size - len(names), 1)
+        return out, float(2.0 * sol.cost / nfree)
+
     def minimize(self, params, idx, noise: Noise, scale_covar: bool = True):
         return lmfit.minimize(
             self.residual, params, args=(idx, noise), method="leastsq", scale_covar=scale_covar
@@ -302,14 +329,14 @@ class _Problem:
         params, null_dirs = self.parameters(start)
         unit = Noise(noise_model.domain, _UNIT_NOISE, _UNIT_NOISE)
         used = np.arange(self.sweep.points)
-        result = self.minimize(params, used, unit)
+        params, redchi = self.quick_minimize(params, used, unit)
         outliers = np.array([], dtype=int)
         if not keep_outliers:
-            outliers = self.outliers(result.params, used, noise_model.domain)
+            outliers = self.outliers(params, used, noise_model.domain)
             if outliers.size:
                 used = np.setdiff1d(used, outliers)
-                result = self.minimize(result.params, used, unit)
-        return _FirstPass(result, used, outliers, start, null_dirs, noise_model.domain)
+                params, redchi = self.quick_minimize(params, used, unit)
+        return _FirstPass(params, redchi, used, outliers, start, null_dirs, noise_model.domain)
 
     def outliers(self, params, idx, domain: str) -> np.ndarray:
         """Points far from a first fit by a robust measure, unless too many are."""
@@ -326,9 +353,9 @@ class _Problem:
     def estimate_noise(self, first: _FirstPass) -> Noise:
         """Noise from the residuals of the first pass, magnitude and phase apart."""
         domain = first.domain
-        a, b = self.raw_residual(first.result.params.valuesdict(), first.used, domain)
+        a, b = self.raw_residual(first.params.valuesdict(), first.used, domain)
         ncomp = 1 if b is None else 2
-        nvary = len(_varied(first.result.params))
+        nvary = len(_varied(first.params))
         dof_share = max(1.0 - nvary / (ncomp * first.used.size), 0.5)
         if domain == "additive" and b is not None:
             sigma = math.sqrt(np.mean(np.concatenate([a, b]) ** 2) / dof_share)
@@ -338,7 +365,7 @@ class _Problem:
         return Noise(domain, max(sigma, 1e-300), phase)
 
     def final(self, first: _FirstPass, noise: Noise) -> CircuitFit:
-        result = self.minimize(first.result.params, first.used, noise, scale_covar=not noise.stated)
+        result = self.minimize(first.params, first.used, noise, scale_covar=not noise.stated)
         if not result.success or result.covar is None:
             raise FitError(
                 f"the fit did not converge ({result.message})",
