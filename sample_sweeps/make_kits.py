@@ -22,15 +22,20 @@ from fitkit.setups import Setup
 
 HERE = Path(__file__).resolve().parent
 KIT_SETUP = Setup("divider", "ratio", sense_ohm=22.0, probe_f=15e-12, reference="terminal")
-KIT_SETUP_TOML = """\
+KIT_SETUP_NOTE = """\
 # every kit was swept the same way: generator terminal -> kit -> 22 ohm sense resistor,
 # scope channel 2 across the sense resistor through a 10x probe (about 15 pF)
-[bench]
-arrangement = "divider"
-sense_resistor = "22"
-probe_capacitance = "15p"
-ratio_reference = "terminal"
 """
+
+
+def setup_toml(sense_ohm: str) -> str:
+    """A divider bench file: the sense resistor, a 10x probe, ratio against the terminal."""
+    return (
+        f'[bench]\narrangement = "divider"\nsense_resistor = "{sense_ohm}"\n'
+        'probe_capacitance = "15p"\nratio_reference = "terminal"\n'
+    )
+
+
 KIT_SPEC_TOML = """\
 # what a teaching kit must meet (the parts list says 470 uH and 2.2 nF, both 5 %)
 [rule]
@@ -81,7 +86,7 @@ def kits(rng: np.random.Generator) -> None:
         if n == 10:  # the stick filled up while the file was written
             text = path.read_text(encoding="utf-8")
             path.write_text(text[:60], encoding="utf-8")
-    (folder / "fitkit-setup.toml").write_text(KIT_SETUP_TOML, encoding="utf-8")
+    (folder / "fitkit-setup.toml").write_text(KIT_SETUP_NOTE + setup_toml("22"), encoding="utf-8")
     (folder / "spec.toml").write_text(KIT_SPEC_TOML, encoding="utf-8")
 
 
@@ -94,14 +99,7 @@ def drift(rng: np.random.Generator) -> None:
     r, l_h, c_f = 9.0, 680e-6, 180e-12
     for name, c in (("reference.csv", c_f), ("drifted.csv", c_f * 1.06)):
         write_sweep(folder / name, f, setup.response(series_rlc(f, r, l_h, c), f), rng)
-    (folder / "fitkit-setup.toml").write_text(
-        "[bench]\n"
-        'arrangement = "divider"\n'
-        'sense_resistor = "47"\n'
-        'probe_capacitance = "15p"\n'
-        'ratio_reference = "terminal"\n',
-        encoding="utf-8",
-    )
+    (folder / "fitkit-setup.toml").write_text(setup_toml("47"), encoding="utf-8")
 
 
 def main() -> None:

@@ -71,12 +71,7 @@ def batch_command(
     files = find_inputs(inputs, skip=out)
     names = (RESULTS_CSV, RESULTS_JSON) + (("report.html",) if with_report else ())
     check_output(out, resume=resume, force=force, names=names)
-    settings = {
-        "setup_path": opts.pop("setup_file"),
-        "overrides": overrides_from_options(opts),
-        "known": list(opts.get("known", ())),
-        "noise": noise,
-    }
+    settings = fit_settings(opts, noise)
     with click.progressbar(length=len(files), label="fitting", file=sys.stderr) as bar:
         try:
             records = run_batch(
@@ -102,6 +97,16 @@ def batch_command(
         click.echo(line)
     for path in written:
         click.echo(f"  written  {path}")
+
+
+def fit_settings(opts: dict, noise: str | None) -> dict:
+    """The settings for :func:`fitkit.batch.fit_with` from the bench options and --noise."""
+    return {
+        "setup_path": opts.pop("setup_file"),
+        "overrides": overrides_from_options(opts),
+        "known": list(opts.get("known", ())),
+        "noise": noise,
+    }
 
 
 def summary_lines(summary: dict, records: list[dict]) -> list[str]:

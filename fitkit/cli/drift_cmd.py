@@ -7,21 +7,22 @@ from pathlib import Path
 
 import click
 
+from fitkit.batch import fit_with
 from fitkit.cli.base import main, reports_errors
-from fitkit.cli.fit_cmd import bench_options, overrides_from_options
+from fitkit.cli.batch_cmd import fit_settings
+from fitkit.cli.fit_cmd import bench_options
 from fitkit.drift import SIGNIFICANT_Z, compare, fit_values, reading
 from fitkit.errors import InputError
 from fitkit.result import QUANTITIES, load_fit
 from fitkit.spec import SPEC_NAMES, load_spec
 from fitkit.units import format_quantity, parse_quantity
-from fitkit.workflow import fit_file
 
 
 def _values_of(path: str, fit_options: dict) -> dict:
     """Values of a saved fit (.json) or of a sweep fitted now."""
     if Path(path).suffix.lower() == ".json":
         return fit_values(load_fit(path))
-    return fit_values(fit_file(path, **fit_options)[0])
+    return fit_values(fit_with(path, fit_options)[0])
 
 
 def _nominals(typed: tuple, spec_file: str | None) -> dict:
@@ -64,12 +65,7 @@ def drift_command(unit, reference, nominal, spec_file, noise, as_json, **opts):
             "give one reference",
             remedy="use --against FIT_OR_SWEEP, or nominal values (--nominal, --spec)",
         )
-    fit_options = {
-        "setup_path": opts.pop("setup_file"),
-        "overrides": overrides_from_options(opts),
-        "known": opts.get("known", ()),
-        "noise": noise,
-    }
+    fit_options = fit_settings(opts, noise)
     ref = _values_of(reference, fit_options) if reference else _nominals(nominal, spec_file)
     changes = compare(_values_of(unit, fit_options), ref)
     if not changes:

@@ -7,14 +7,14 @@ from pathlib import Path
 
 import click
 
-from fitkit.batch import RESULTS_JSON
+from fitkit.batch import RESULTS_JSON, fit_with
 from fitkit.cli.base import main, reports_errors
-from fitkit.cli.fit_cmd import bench_options, overrides_from_options
+from fitkit.cli.batch_cmd import fit_settings
+from fitkit.cli.fit_cmd import bench_options
 from fitkit.errors import InputError
 from fitkit.report.html import batch_plots, batch_report, fit_report, write_report
 from fitkit.result import load_fit
 from fitkit.spec import load_spec
-from fitkit.workflow import fit_file
 
 
 @main.command("report")
@@ -48,13 +48,7 @@ def report_command(source, out_file, spec_file, noise, force, **opts):
         if src.suffix.lower() == ".json":
             fit, bench = load_fit(src), None
         else:
-            fit, bench = fit_file(
-                src,
-                setup_path=opts.pop("setup_file"),
-                overrides=overrides_from_options(opts),
-                known=opts.get("known", ()),
-                noise=noise,
-            )
+            fit, bench = fit_with(src, fit_settings(opts, noise))
         page = fit_report(fit, spec=spec, setup_file=bench)
     click.echo(f"report written to {write_report(out_file, page, force=force)}")
 
