@@ -436,7 +436,8 @@ class _Problem:
         marker = None
         if self.known:
             ((name, (value, stderr)),) = self.known.items()
-            scale = self.topology.scale_from_known(self.setup, name, ufloat(value, stderr), f0, q)
+            exact_or_uncertain = ufloat(value, stderr) if stderr else value
+            scale = self.topology.scale_from_known(self.setup, name, exact_or_uncertain, f0, q)
         elif scale_open:
             marker = ufloat(math.exp(val["lnscale"]), 1.0, tag="scale left open")
             scale = marker

@@ -21,7 +21,6 @@ correlated ``uncertainties`` values (error bars that keep the L-C correlation).
 from __future__ import annotations
 
 import math
-import warnings
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -192,12 +191,8 @@ def values_from_fit(fit: CircuitFit) -> dict:
             remedy="fit again with the missing value given (--known L=220u+-1u), "
             "or type R, L and C with --value",
         )
-    with warnings.catch_warnings():
-        # a value known exactly (--known L=220u) comes back as an error-free ufloat, which
-        # uncertainties warns about; here it is meant, and the value is kept as a float
-        warnings.filterwarnings("ignore", message="Using UFloat objects with std_dev==0")
-        u = fit.correlated()
-    return {n: u[n] if u[n].std_dev else u[n].nominal_value for n in COMPONENTS}
+    u = fit.correlated()
+    return {n: u[n] for n in COMPONENTS}
 
 
 def check_values(values: dict) -> dict:

@@ -104,12 +104,17 @@ class CircuitFit:
     def correlated(self) -> dict:
         """Correlated ``uncertainties`` values of every determined quantity, for predictions."""
         names = self.covariance_names
+        cov = np.asarray(self.covariance, dtype=float)
+        # values known exactly stay plain floats (an error-free ufloat is deprecated)
+        keep = [i for i, n in enumerate(names) if cov[i, i] > 0]
         base = correlated_values(
-            [self.quantities[n].value for n in names], np.asarray(self.covariance)
+            [self.quantities[names[i]].value for i in keep], cov[np.ix_(keep, keep)]
         )
-        out = dict(zip(names, base))
+        out = {n: self.quantities[n].value for n in names}
+        out.update({names[i]: u for i, u in zip(keep, base)})
         for name, kv in self.known.items():
-            out.setdefault(name, ufloat(kv["value"], kv.get("stderr") or 0.0))
+            stderr = kv.get("stderr") or 0.0
+            out.setdefault(name, ufloat(kv["value"], stderr) if stderr else kv["value"])
         return out
 
     def correlations(self) -> dict:
@@ -117,8 +122,10 @@ class CircuitFit:
         cov = np.asarray(self.covariance, dtype=float)
         sd = np.sqrt(np.diag(cov))
         with np.errstate(divide="ignore", invalid="ignore"):
-            corr = cov / np.outer(sd, sd)
-        return {"names": list(names), "matrix": np.round(corr, 6).tolist()}
+            corr = np.round(cov / np.outer(sd, sd), 6)
+        # a value with no spread (known exactly) has no correlation: null in JSON
+        matrix = [[float(x) if np.isfinite(x) else None for x in row] for row in corr]
+        return {"names": list(names), "matrix": matrix}
 
     def correlation(self, a: str, b: str) -> float | None:
         corr = self.correlations()

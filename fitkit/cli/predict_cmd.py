@@ -154,6 +154,7 @@ def _start(sweep_file, saved_fit, typed, opts) -> tuple:
             setup_path=opts.get("setup_file"),
             overrides=overrides_from_options(opts),
             known=opts.get("known", ()),
+            topology="series",
         )
         origin = f"fit of {sweep_file}"
     values = values_from_fit(fit)
