@@ -219,10 +219,10 @@ class _Search:
         """The best scale and, when a distinct second one matches about as well (a
         magnitude-only reflection cannot tell R from Z0^2/R), that one too."""
         floor = self.setup.external_ohm if self.topology.scale_floor_is_fixture else 0.0
-        grid = np.linspace(np.log(max(floor, 1e-3) * 1.0001), np.log(1e9), 121)
+        grid = np.linspace(np.log(max(floor, 1e-3) * 1.0001), np.log(1e9), 49)
         costs = np.array([self.cost(f0, q, g) for g in grid])
-        inner = np.arange(1, grid.size - 1)
-        minima = inner[(costs[inner] <= costs[inner - 1]) & (costs[inner] <= costs[inner + 1])]
+        padded = np.concatenate([[np.inf], costs, [np.inf]])
+        minima = np.flatnonzero((costs <= padded[:-2]) & (costs <= padded[2:]))
         minima = sorted(minima, key=lambda i: costs[i]) or [int(np.nanargmin(costs))]
         found = []
         for i in minima[:2]:
@@ -237,7 +237,7 @@ class _Search:
 
     def best_q(self, f0: float, q_guess: float) -> float:
         """The Q on a short geometric grid from the guess that fits best."""
-        candidates = q_guess * np.array([1.0, 2.0, 4.0, 8.0, 16.0, 32.0])
+        candidates = q_guess * np.array([1.0, 3.0, 10.0, 30.0])
         costs = [self.cost(f0, q, np.log(self.scale(f0, q)[0])) for q in candidates]
         return float(candidates[int(np.argmin(costs))])
 

@@ -61,7 +61,7 @@ def parse_quantity(text: str | float | int, unit: str, *, what: str = "value") -
     raw = str(text).strip()
     s = raw.replace(" ", "")
     for spelling in _unit_spellings(unit):
-        if s.lower().endswith(spelling.lower()) and len(s) > len(spelling):
+        if spelling and s.lower().endswith(spelling.lower()) and len(s) > len(spelling):
             s = s[: -len(spelling)]
             break
     # the trade's resistor notation: 4k7 = 4.7k, 2R2 = 2.2
