@@ -26,18 +26,13 @@ from __future__ import annotations
 
 import math
 import re
-import sys
 from pathlib import Path
 
 from fitkit.errors import InputError, SetupError
 from fitkit.setups import DEFAULT_BENCH, Setup
 from fitkit.sweep import Sweep
+from fitkit.tomlfile import read_toml
 from fitkit.units import parse_quantity
-
-if sys.version_info >= (3, 11):
-    import tomllib
-else:  # pragma: no cover
-    import tomli as tomllib
 
 DEFAULT_NAME = "fitkit-setup.toml"
 
@@ -73,16 +68,12 @@ def load_bench_file(path: str | Path) -> dict:
         When the file is missing, is not TOML, or holds keys fitkit does not know.
     """
     p = Path(path)
-    try:
-        data = tomllib.loads(p.read_text(encoding="utf-8"))
-    except FileNotFoundError:
-        raise InputError("no such setup file", remedy="check the --setup path", path=p) from None
-    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
-        raise InputError(
-            f"not a valid TOML setup file ({exc})",
-            remedy=f"see 'fitkit fit --help' for the layout of {DEFAULT_NAME}",
-            path=p,
-        ) from None
+    data = read_toml(
+        p,
+        what="setup file",
+        option="--setup",
+        layout=f"see the layout of {DEFAULT_NAME} in docs/getting-started.md",
+    )
     unknown = set(data) - {"bench", "known", "columns"}
     unknown |= set(data.get("bench", {})) - set(_FIELDS)
     unknown |= set(data.get("known", {})) - set(_KNOWN_UNITS)

@@ -32,17 +32,12 @@ A value the fit did not determine is ``undecided (not determined)`` under either
 from __future__ import annotations
 
 import math
-import sys
 from dataclasses import dataclass, field
 from pathlib import Path
 
 from fitkit.errors import FitkitError, InputError
+from fitkit.tomlfile import read_toml
 from fitkit.units import format_quantity, parse_quantity
-
-if sys.version_info >= (3, 11):
-    import tomllib
-else:  # pragma: no cover
-    import tomli as tomllib
 
 #: spec name -> (CircuitFit quantity name, unit)
 SPEC_NAMES = {
@@ -153,18 +148,12 @@ def load_spec(path: str | Path) -> Spec:
         limits that cannot be read or that contradict each other.
     """
     p = Path(path)
-    try:
-        data = tomllib.loads(p.read_text(encoding="utf-8"))
-    except FileNotFoundError:
-        raise InputError(
-            "no such specification file", remedy="check the --spec path", path=p
-        ) from None
-    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
-        raise InputError(
-            f"not a TOML file ({exc})",
-            remedy='write it as in docs/batch.md: [L] nominal = "220u" tolerance = "5%"',
-            path=p,
-        ) from None
+    data = read_toml(
+        p,
+        what="specification file",
+        option="--spec",
+        layout='write it as in docs/batch.md: [L] nominal = "220u" tolerance = "5%"',
+    )
     rule = data.pop("rule", {})
     limits = tuple(_limit(name, table, p) for name, table in data.items())
     if not limits:

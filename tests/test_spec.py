@@ -85,7 +85,7 @@ def test_spec_file_layout(tmp_path):
         ('[rule]\ndecision = "lenient"\n[L]\nmin = 1\n', "not a known rule"),
         ("[rule]\ncoverage = -1\n[L]\nmin = 1\n", "coverage"),
         ("", "gives no limits"),
-        ("[L\n", "not a TOML file"),
+        ("[L\n", "not a valid TOML specification file"),
     ],
 )
 def test_bad_spec_names_the_file_and_the_fix(tmp_path, text, words):

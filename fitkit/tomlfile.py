@@ -1,0 +1,36 @@
+"""Reading the small TOML files users keep beside their sweeps (setup, specification)."""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+from fitkit.errors import InputError
+
+if sys.version_info >= (3, 11):
+    import tomllib
+else:  # pragma: no cover
+    import tomli as tomllib
+
+
+def read_toml(path: str | Path, *, what: str, option: str, layout: str) -> dict:
+    """The file's tables as a dict, or an InputError naming the file and the fix.
+
+    Parameters
+    ----------
+    path : str or Path
+        The file.
+    what : str
+        What the file is, for the message ("setup file").
+    option : str
+        The command-line option that names it ("--setup").
+    layout : str
+        Where the user finds the expected layout, for the remedy.
+    """
+    p = Path(path)
+    try:
+        return tomllib.loads(p.read_text(encoding="utf-8"))
+    except FileNotFoundError:
+        raise InputError(f"no such {what}", remedy=f"check the {option} path", path=p) from None
+    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
+        raise InputError(f"not a valid TOML {what} ({exc})", remedy=layout, path=p) from None
