@@ -105,6 +105,7 @@ def fit_with(path: str | Path, settings: dict):
         overrides=settings.get("overrides"),
         known=tuple(settings.get("known", ())),
         noise=settings.get("noise"),
+        topology=settings.get("topology", "auto"),
     )
 
 

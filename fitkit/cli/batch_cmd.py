@@ -18,7 +18,7 @@ from fitkit.batch import (
     write_results,
 )
 from fitkit.cli.base import main, reports_errors
-from fitkit.cli.fit_cmd import bench_options, overrides_from_options
+from fitkit.cli.fit_cmd import bench_options, model_option, overrides_from_options
 from fitkit.spec import RULES, load_spec
 
 
@@ -41,6 +41,7 @@ from fitkit.spec import RULES, load_spec
     help="Guard band in standard uncertainties, k [default: 2].",
 )
 @bench_options
+@model_option
 @click.option("--noise", help="Stated noise for every sweep (as for 'fitkit fit').")
 @click.option(
     "--workers", type=click.IntRange(min=0), default=0, help="Worker processes; 0 = one per core."
@@ -56,7 +57,18 @@ from fitkit.spec import RULES, load_spec
 @click.option("--report", "with_report", is_flag=True, help="Also write report.html in --out.")
 @reports_errors
 def batch_command(
-    inputs, out_dir, spec_file, rule, coverage, noise, workers, resume, force, with_report, **opts
+    inputs,
+    out_dir,
+    spec_file,
+    rule,
+    coverage,
+    model,
+    noise,
+    workers,
+    resume,
+    force,
+    with_report,
+    **opts,
 ):
     """Fit every sweep in INPUTS (folders, files or quoted globs) and judge each unit.
 
@@ -71,7 +83,7 @@ def batch_command(
     files = find_inputs(inputs, skip=out)
     names = (RESULTS_CSV, RESULTS_JSON) + (("report.html",) if with_report else ())
     check_output(out, resume=resume, force=force, names=names)
-    settings = fit_settings(opts, noise)
+    settings = fit_settings(opts, noise, model)
     with click.progressbar(length=len(files), label="fitting", file=sys.stderr) as bar:
         try:
             records = run_batch(
@@ -99,9 +111,11 @@ def batch_command(
         click.echo(f"  written  {path}")
 
 
-def fit_settings(opts: dict, noise: str | None) -> dict:
-    """The settings for :func:`fitkit.batch.fit_with` from the bench options and --noise."""
+def fit_settings(opts: dict, noise: str | None, model: str = "auto") -> dict:
+    """The settings for :func:`fitkit.batch.fit_with` from the bench options, --noise and
+    --model."""
     return {
+        "topology": model,
         "setup_path": opts.pop("setup_file"),
         "overrides": overrides_from_options(opts),
         "known": list(opts.get("known", ())),

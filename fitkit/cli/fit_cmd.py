@@ -70,6 +70,16 @@ def bench_options(func):
     return func
 
 
+model_option = click.option(
+    "--model",
+    type=click.Choice(["auto", *TOPOLOGIES]),
+    default="auto",
+    show_default=True,
+    help="Circuit model: series R-L-C, tank (coil with loss across C), coil (with "
+    "self-capacitance, in series with C), or auto: fit each, keep the best by BIC.",
+)
+
+
 def overrides_from_options(opts: dict) -> dict:
     """Setup fields from the bench options as typed (``None`` where not given)."""
     return {
@@ -94,14 +104,7 @@ def overrides_from_options(opts: dict) -> dict:
     help="Stated noise: '0.05dB', '0.05dB,0.3deg', '1%' or an additive '2e-3'. "
     "Default: estimated from the residuals.",
 )
-@click.option(
-    "--model",
-    type=click.Choice(["auto", *TOPOLOGIES]),
-    default="auto",
-    show_default=True,
-    help="Circuit model: series R-L-C, tank (coil with loss across C), coil (with "
-    "self-capacitance, in series with C), or auto: fit each, keep the best by BIC.",
-)
+@model_option
 @click.option(
     "--skin-above",
     help="The loss grows as sqrt(f) above this frequency (skin effect), e.g. 200k.",
