@@ -82,6 +82,7 @@ class Cell:
         return SweepShape(self.span_bw, points, "linear", offset).frequencies(F0_HZ, self.q_loaded)
 
     def label(self) -> str:
+        """Four table columns: Q, SNR, span and centring, data form."""
         where = "off" if self.off_centre else "mid"
         form = "complex" if self.complex_data else "magnitude"
         return f"Q {self.q_loaded:g} | {self.snr_db:g} dB | +-{self.span_bw:g} {where} | {form}"
@@ -287,10 +288,11 @@ def print_report(results: list, speed: tuple, command: str, seconds: float) -> N
     print("\n## Every cell\n")
     print("RMS/bound and bias/bound as f0, Q; coverage f0/Q %; ok % (within 10 bounds).\n")
     print(
-        "| # | cell | fitkit RMS | fitkit bias | fitkit cov | fitkit ok | half-power RMS "
+        "| # | Q | SNR | span | data | fitkit RMS | fitkit bias | fitkit cov | fitkit ok "
+        "| half-power RMS "
         "| half-power ok | curve_fit RMS | curve_fit cov | curve_fit ok |"
     )
-    print("|---|---|---|---|---|---|---|---|---|---|---|")
+    print("|---|---|---|---|---|---|---|---|---|---|---|---|---|---|")
     for r in results:
         f, h, c = (cell_stats(r, m) for m in METHODS)
         print(
