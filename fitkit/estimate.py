@@ -151,7 +151,7 @@ def _from_magnitude(f, magnitude, setup: Setup, topology: Topology) -> tuple:
         if b0 > 0 and c0 > 0 and a0 + 2.0 * np.sqrt(b0 * c0) > 0:
             w0 = wc * (c0 / b0) ** 0.25
             q = (w0 / wc) * np.sqrt(b0) / np.sqrt(a0 + 2.0 * np.sqrt(b0 * c0))
-            if f[0] / 10 < w0 / TWO_PI < f[-1] * 10 and q > 0:
+            if f[0] <= w0 / TWO_PI <= f[-1] and q > 0:
                 return w0 / TWO_PI, q, "quadratic fit of the loop power"
     return _from_extremum(f, t)
 

@@ -366,6 +366,9 @@ class _Problem:
 
     def final(self, first: _FirstPass, noise: Noise) -> CircuitFit:
         result = self.minimize(first.params, first.used, noise, scale_covar=not noise.stated)
+        if result.success and result.covar is None:
+            result.covar = self.covariance_at(result, first.used, noise)
+            result.errorbars = result.covar is not None
         if not result.success or result.covar is None:
             raise FitError(
                 f"the fit did not converge ({result.message})",
@@ -373,6 +376,26 @@ class _Problem:
                 path=self.sweep.source,
             )
         return self.to_result(result, first, noise)
+
+    def covariance_at(self, result, idx, noise: Noise):
+        """(J^T J)^-1 from central differences, when lmfit's own estimate failed (a
+        minimum so sharp that its forward-difference Jacobian lost precision)."""
+        names = _varied(result.params)
+        base = result.params.valuesdict()
+        cols = []
+        for name in names:
+            step = 1e-5 * max(1.0, abs(base[name]))
+            up = self.residual_values({**base, name: base[name] + step}, idx, noise)
+            down = self.residual_values({**base, name: base[name] - step}, idx, noise)
+            cols.append((up - down) / (2.0 * step))
+        jac = np.column_stack(cols)
+        try:
+            cov = np.linalg.inv(jac.T @ jac)
+        except np.linalg.LinAlgError:
+            return None
+        if not (np.all(np.isfinite(cov)) and np.all(np.diag(cov) > 0)):
+            return None
+        return cov * (result.redchi if not noise.stated else 1.0)
 
     # -- checks and the result ------------------------------------------------------------
     def check_inside(self, f0: float, what: str) -> None:
