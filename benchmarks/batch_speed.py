@@ -15,6 +15,7 @@ import subprocess
 import sys
 import tempfile
 import time
+from itertools import product
 from pathlib import Path
 
 import numpy as np
@@ -38,11 +39,11 @@ def write_sweeps(folder: Path, count: int, points: int) -> None:
     (folder / "fitkit-setup.toml").write_text(SETUP_TOML, encoding="utf-8")
 
 
-def timed_batch(folder: Path, out: Path, workers: int) -> tuple[float, float]:
+def timed_batch(folder: Path, out: Path, workers: int, model: str) -> tuple[float, float]:
     """(seconds, peak RSS in MiB of the largest child so far) of one batch run."""
     start = time.perf_counter()
     cmd = [sys.executable, "-c", "from fitkit.cli import main; main()", "batch", str(folder),
-           "--out", str(out), "--workers", str(workers)]  # fmt: skip
+           "--out", str(out), "--workers", str(workers), "--model", model]  # fmt: skip
     subprocess.run(cmd, check=True, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
     seconds = time.perf_counter() - start
     peak_kib = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss  # KiB on Linux
@@ -53,6 +54,9 @@ def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--count", type=int, default=1000, help="sweeps to generate")
     parser.add_argument("--points", type=int, default=1001, help="points per sweep")
+    parser.add_argument(
+        "--models", default="series,auto", help="circuit models to time, comma-separated"
+    )
     args = parser.parse_args()
     with tempfile.TemporaryDirectory() as tmp:
         folder = Path(tmp) / "sweeps"
@@ -61,10 +65,11 @@ def main() -> None:
         write_sweeps(folder, args.count, args.points)
         print(f"wrote {args.count} sweeps of {args.points} points in "
               f"{time.perf_counter() - start:.1f} s")  # fmt: skip
-        for workers in (1, 2):
-            seconds, peak = timed_batch(folder, Path(tmp) / f"out-{workers}", workers)
+        for model, workers in product(args.models.split(","), (1, 2)):
+            out = Path(tmp) / f"out-{model}-{workers}"
+            seconds, peak = timed_batch(folder, out, workers, model)
             print(
-                f"workers={workers}: {args.count} sweeps in {seconds:.1f} s = "
+                f"--model {model}, workers={workers}: {args.count} sweeps in {seconds:.1f} s = "
                 f"{args.count / seconds:.1f} sweeps/s ({args.count / seconds / workers:.1f} per "
                 f"worker); peak RSS of any process so far {peak:.0f} MiB"
             )

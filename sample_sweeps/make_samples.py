@@ -136,12 +136,29 @@ def coil_self_resonance(rng: np.random.Generator) -> None:
     )
 
 
+def scope_export() -> None:
+    """A hand-typed three-point export in a European scope's dialect: semicolons, decimal
+    commas, key;value lines before the header, a temperature column, an empty row and
+    rows out of order. Shown by ``fitkit inspect`` in docs/readers.md."""
+    (HERE / "scope_export.csv").write_text(
+        "Generator amplitude;2 Vpp\n"
+        "Sense resistor;47 ohm\n"
+        "Frequency (kHz);Gain (dB);Phase (deg);Temp\n"
+        "455,0;-3,01;0,5;21,5\n"
+        "450,0;-6,20;44,1;21,5\n"
+        ";;;\n"
+        "460,0;-6,35;-43,8;21,6\n",
+        encoding="utf-8",
+    )
+
+
 def main() -> None:
     rng = np.random.default_rng(20261201)
     hand_wound_series(rng)
     single_channel_volts(rng)
     hand_wound_tank(rng)
     coil_self_resonance(rng)
+    scope_export()
 
 
 if __name__ == "__main__":
