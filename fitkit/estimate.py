@@ -69,7 +69,8 @@ def estimate_start(
     f = sweep.freq_hz
     if sweep.is_complex and setup.is_calibrated:
         start = _from_impedance(sweep, setup, topology)
-        if start is not None:
+        # noise can push a linearised estimate off the sweep: then the magnitude's turn
+        if start is not None and f[0] <= start.f0_hz <= f[-1]:
             return start
     f0, q, method = _from_magnitude(f, np.abs(sweep.values), setup, topology)
     extras = _extras_guess(f, np.abs(sweep.values), setup, topology, f0)
