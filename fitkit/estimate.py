@@ -64,15 +64,25 @@ def estimate_start(
     setup: Setup,
     topology: Topology = SERIES,
     skin_above_hz: float | None = None,
+    *,
+    from_extremum: bool = False,
 ) -> Start:
-    """Closed-form start for a fit of ``topology`` (see the module notes)."""
+    """Closed-form start for a fit of ``topology`` (see the module notes).
+
+    ``from_extremum`` skips the linearisations: the second start, for a refinement that
+    left the sweep from the first.
+    """
     f = sweep.freq_hz
-    if sweep.is_complex and setup.is_calibrated:
+    if sweep.is_complex and setup.is_calibrated and not from_extremum:
         start = _from_impedance(sweep, setup, topology)
         # noise can push a linearised estimate off the sweep: then the magnitude's turn
         if start is not None and f[0] <= start.f0_hz <= f[-1]:
             return start
-    f0, q, method = _from_magnitude(f, np.abs(sweep.values), setup, topology)
+    if from_extremum:
+        t = loop_power_transform(setup, np.abs(sweep.values))
+        f0, q, method = _from_extremum(f, 1.0 / t if topology.name == "tank" else t)
+    else:
+        f0, q, method = _from_magnitude(f, np.abs(sweep.values), setup, topology)
     extras = _extras_guess(f, np.abs(sweep.values), setup, topology, f0)
     search = _Search(sweep, setup, topology, extras, skin_above_hz)
     if topology.name == "tank" and setup.bench != "impedance":

@@ -330,6 +330,15 @@ class _Problem:
         unit = Noise(noise_model.domain, _UNIT_NOISE, _UNIT_NOISE)
         used = np.arange(self.sweep.points)
         params, redchi = self.quick_minimize(params, used, unit)
+        if not self.f[0] <= math.exp(params["lnf0"].value) <= self.f[-1]:
+            # the refinement left the sweep: try once more from the sweep's extremum and
+            # keep that minimum if it stays inside (a resonance outside is refused anyway)
+            second = estimate_start(
+                self.sweep, self.setup, self.topology, self.skin, from_extremum=True
+            )
+            retry, retry_redchi = self.quick_minimize(self.parameters(second)[0], used, unit)
+            if self.f[0] <= math.exp(retry["lnf0"].value) <= self.f[-1]:
+                params, redchi, start = retry, retry_redchi, second
         outliers = np.array([], dtype=int)
         if not keep_outliers:
             outliers = self.outliers(params, used, noise_model.domain)
