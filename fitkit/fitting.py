@@ -412,7 +412,8 @@ class _Problem:
             raise FitError(
                 f"{what} lies at {format_quantity(f0, 'Hz')}, outside the sweep "
                 f"({format_quantity(self.f[0], 'Hz')} to {format_quantity(self.f[-1], 'Hz')})",
-                remedy="sweep again across the resonance (a few bandwidths each side)",
+                remedy="sweep again across the resonance (a few bandwidths each side); if "
+                "the sweep does cover it, the circuit model may be wrong: try --model auto",
                 path=self.sweep.source,
             )
 
