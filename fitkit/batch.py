@@ -256,7 +256,8 @@ def _row(record: dict, spec: Spec | None) -> dict:
     values = _values(fit)
     row = {k: record.get(k) for k in ("file", "sha256", "status")}
     row["verdict"] = "not fitted" if fit is None else ""
-    row["reason"] = record.get("reason", "")
+    # one line per cell, so the CSV stays one row per file for line-based tools
+    row["reason"] = " ".join(record.get("reason", "").split())
     for q in QUANTITIES:
         row[q], row[f"{q}_u"] = values.get(q, (None, None))
     if spec is not None:

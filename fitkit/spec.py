@@ -251,14 +251,17 @@ def decide(value: float | None, stderr: float | None, limit: Limit, spec: Spec) 
     low = -math.inf if limit.low is None else limit.low
     high = math.inf if limit.high is None else limit.high
     if spec.rule == "simple" or spec.coverage == 0:
-        return Verdict(PASS if low <= value <= high else FAIL)
+        if low <= value <= high:
+            return Verdict(PASS)
+        return Verdict(FAIL, _beyond(format_quantity(value, limit.unit), value, low, high, limit))
     if stderr is None or not math.isfinite(stderr):
         return Verdict(UNDECIDED, "no uncertainty to guard with")
     band = spec.coverage * stderr
     if low <= value - band and value + band <= high:
         return Verdict(PASS)
     if value + band < low or value - band > high:
-        return Verdict(FAIL)
+        interval = f"{format_quantity(value, limit.unit, band)} (k = {spec.coverage:g})"
+        return Verdict(FAIL, _beyond(interval, value, low, high, limit))
     edge = low if value - band < low else high
     interval = format_quantity(value, limit.unit, band)
     # the limit printed to the interval's last digit
@@ -266,6 +269,12 @@ def decide(value: float | None, stderr: float | None, limit: Limit, spec: Spec) 
     return Verdict(
         UNDECIDED, f"{interval} (k = {spec.coverage:g}) straddles the limit {limit_text}"
     )
+
+
+def _beyond(shown: str, value: float, low: float, high: float, limit: Limit) -> str:
+    """'<value> above the limit <high>' or '... below the limit <low>'."""
+    side, edge = ("above", high) if value > high else ("below", low)
+    return f"{shown} {side} the limit {format_quantity(edge, limit.unit)}"
 
 
 def judge(values: dict, spec: Spec) -> UnitVerdicts:

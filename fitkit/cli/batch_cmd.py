@@ -19,6 +19,7 @@ from fitkit.batch import (
 )
 from fitkit.cli.base import main, reports_errors
 from fitkit.cli.fit_cmd import bench_options, model_option, overrides_from_options
+from fitkit.result import QUANTITIES
 from fitkit.spec import RULES, load_spec
 
 
@@ -137,5 +138,6 @@ def summary_lines(summary: dict, records: list[dict]) -> list[str]:
             ]
             lines.append(f"  {row['verdict']:<9} {row['file']}: {'; '.join(why)}")
     for item in summary["stand_out"]:
-        lines.append(f"  stands out: {item['file']}: {item['value']} (z = {item['z']:+.1f})")
+        label = QUANTITIES.get(item["value"], (None, item["value"]))[1]
+        lines.append(f"  stands out: {item['file']}: {label} (z = {item['z']:+.1f})")
     return lines

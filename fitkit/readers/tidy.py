@@ -84,7 +84,8 @@ def tidy_sweep(
     if freq_hz.size < 2:
         raise InputError(
             f"the file holds {freq_hz.size} point(s) of data",
-            remedy="a fit needs a sweep of many points across the resonance",
+            remedy="a fit needs a sweep of many points across the resonance; if the "
+            "instrument saved more, the file was cut short: export it again",
             path=path,
             line=int(lines[0]) if lines.size else None,
         )
