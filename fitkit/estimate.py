@@ -52,11 +52,13 @@ def predicted(
     extras: dict | None = None,
     gain: float = 1.0,
     skin_above_hz: float | None = None,
+    coefficients=None,
 ) -> np.ndarray:
     """What the instrument would read for a circuit with these internal values."""
     comps = topology.components(setup, f0_hz, q, scale_ohm, extras or {})
     factor = loss_factor(freq_hz, f0_hz, skin_above_hz)
-    return gain * setup.response(topology.impedance(freq_hz, comps, factor), freq_hz)
+    z = topology.impedance(freq_hz, comps, factor)
+    return gain * setup.response(z, freq_hz, coefficients)
 
 
 def estimate_start(

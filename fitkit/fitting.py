@@ -98,8 +98,16 @@ def fit_sweep(
     if topology == "auto":
         return _choose(sweep, setup, known, noise_model, keep_outliers, skin_above_hz)
     problem = _Problem(sweep, setup, get_topology(topology), known, skin_above_hz)
+    if noise_model.stated or noise_model.domain == "additive" or not sweep.is_complex:
+        # one weighting for every residual: a single lmfit pass gives the covariance,
+        # scaled by the noise estimated from its own residuals when none was stated
+        unit = Noise(noise_model.domain, _UNIT_NOISE, _UNIT_NOISE)
+        weights = noise_model if noise_model.stated else unit
+        first = problem.first_pass(noise_model, keep_outliers, weights=weights, lmfit_pass=True)
+        sigmas = noise_model if noise_model.stated else problem.estimate_noise(first)
+        return problem.finish(first.result, first, sigmas, weights)
     first = problem.first_pass(noise_model, keep_outliers)
-    sigmas = noise_model if noise_model.stated else problem.estimate_noise(first)
+    sigmas = problem.estimate_noise(first)
     return problem.final(first, sigmas)
 
 
@@ -179,9 +187,10 @@ def _check_known(known: dict) -> dict:
 class _FirstPass:
     """A fit with unit weights on the points kept, and what it found on the way."""
 
-    def __init__(self, params, redchi, used, outliers, start: Start, null_dirs, domain: str):
+    def __init__(self, params, redchi, used, outliers, start: Start, null_dirs, domain, result):
         self.params, self.redchi, self.used, self.outliers = params, redchi, used, outliers
         self.start, self.null_dirs, self.domain = start, null_dirs, domain
+        self.result = result  # the lmfit result, when the pass ran on lmfit
 
 
 class _Problem:
@@ -192,6 +201,7 @@ class _Problem:
         self.known, self.skin = known, skin
         self.f = sweep.freq_hz
         self.data = sweep.values
+        self.coefficients = setup.coefficients(self.f)
         # generous bounds keep a wandering candidate model finite; a fit that ends on
         # one is reported (values at a bound are not trusted)
         lo, hi = math.log(self.f[0]), math.log(self.f[-1])
@@ -216,6 +226,10 @@ class _Problem:
 
     def model(self, values: dict, idx=slice(None)) -> np.ndarray:
         f0, q, scale, extras, gain = self.state(values)
+        if isinstance(idx, slice) or idx.size == self.f.size:
+            coefficients = self.coefficients  # every point: no copy
+        else:
+            coefficients = tuple(c[idx] for c in self.coefficients)
         return predicted(
             self.setup,
             self.f[idx],
@@ -226,6 +240,7 @@ class _Problem:
             extras=extras,
             gain=gain,
             skin_above_hz=self.skin,
+            coefficients=coefficients,
         )
 
     def raw_residual(self, values: dict, idx, domain: str) -> tuple:
@@ -302,7 +317,8 @@ class _Problem:
 
     # -- fitting passes -------------------------------------------------------------------
     def quick_minimize(self, params, idx, noise: Noise) -> tuple:
-        """Levenberg-Marquardt straight on scipy, for the passes that need no covariance."""
+        """Levenberg-Marquardt straight on scipy, for the passes that need no covariance;
+        the parameters are updated in place."""
         names = _varied(params)
         base = params.valuesdict()
 
@@ -310,42 +326,63 @@ class _Problem:
             return self.residual_values({**base, **dict(zip(names, x))}, idx, noise)
 
         sol = least_squares(fun, [base[n] for n in names], method="lm", x_scale="jac")
-        out = params.copy()
         for name, value in zip(names, sol.x):
             low, high = self.bounds.get(name, (-np.inf, np.inf))
-            out[name].set(value=min(max(value, low), high))
+            params[name].value = min(max(value, low), high)
         nfree = max(sol.fun.size - len(names), 1)
-        return out, float(2.0 * sol.cost / nfree)
+        return params, float(2.0 * sol.cost / nfree)
 
     def minimize(self, params, idx, noise: Noise, scale_covar: bool = True):
         return lmfit.minimize(
             self.residual, params, args=(idx, noise), method="leastsq", scale_covar=scale_covar
         )
 
-    def first_pass(self, noise_model: Noise, keep_outliers: bool) -> _FirstPass:
-        """Start, identifiability, a fit with unit weights, outliers out and refit."""
+    def first_pass(
+        self,
+        noise_model: Noise,
+        keep_outliers: bool,
+        *,
+        weights: Noise | None = None,
+        lmfit_pass: bool = False,
+    ) -> _FirstPass:
+        """Start, identifiability, a fit (unit weights unless given), outliers out and
+        refit. With ``lmfit_pass`` the fits run on lmfit and the last result is kept."""
         start = estimate_start(self.sweep, self.setup, self.topology, self.skin)
         self.check_inside(start.f0_hz, "the first estimate of the resonance")
         params, null_dirs = self.parameters(start)
-        unit = Noise(noise_model.domain, _UNIT_NOISE, _UNIT_NOISE)
+        unit = weights or Noise(noise_model.domain, _UNIT_NOISE, _UNIT_NOISE)
         used = np.arange(self.sweep.points)
-        params, redchi = self.quick_minimize(params, used, unit)
+        result = None
+
+        def run(p, idx):
+            nonlocal result
+            if not lmfit_pass:
+                return self.quick_minimize(p, idx, unit)
+            result = self.minimize(p, idx, unit, scale_covar=not unit.stated)
+            return result.params, float(result.redchi)
+
+        params, redchi = run(params, used)
         if not self.f[0] <= math.exp(params["lnf0"].value) <= self.f[-1]:
             # the refinement left the sweep: try once more from the sweep's extremum and
             # keep that minimum if it stays inside (a resonance outside is refused anyway)
             second = estimate_start(
                 self.sweep, self.setup, self.topology, self.skin, from_extremum=True
             )
-            retry, retry_redchi = self.quick_minimize(self.parameters(second)[0], used, unit)
+            kept = result
+            retry, retry_redchi = run(self.parameters(second)[0], used)
             if self.f[0] <= math.exp(retry["lnf0"].value) <= self.f[-1]:
                 params, redchi, start = retry, retry_redchi, second
+            else:
+                result = kept
         outliers = np.array([], dtype=int)
         if not keep_outliers:
             outliers = self.outliers(params, used, noise_model.domain)
             if outliers.size:
                 used = np.setdiff1d(used, outliers)
-                params, redchi = self.quick_minimize(params, used, unit)
-        return _FirstPass(params, redchi, used, outliers, start, null_dirs, noise_model.domain)
+                params, redchi = run(params, used)
+        return _FirstPass(
+            params, redchi, used, outliers, start, null_dirs, noise_model.domain, result
+        )
 
     def outliers(self, params, idx, domain: str) -> np.ndarray:
         """Points far from a first fit by a robust measure, unless too many are."""
@@ -374,9 +411,14 @@ class _Problem:
         return Noise(domain, max(sigma, 1e-300), phase)
 
     def final(self, first: _FirstPass, noise: Noise) -> CircuitFit:
+        """The last pass, weighted by the noise, and the result."""
         result = self.minimize(first.params, first.used, noise, scale_covar=not noise.stated)
+        return self.finish(result, first, noise, noise)
+
+    def finish(self, result, first: _FirstPass, noise: Noise, weights: Noise) -> CircuitFit:
+        """The result of the lmfit pass that ran with ``weights``, judged by ``noise``."""
         if result.success and result.covar is None:
-            result.covar = self.covariance_at(result, first.used, noise)
+            result.covar = self.covariance_at(result, first.used, weights)
             result.errorbars = result.covar is not None
         if not result.success or result.covar is None:
             raise FitError(
@@ -384,7 +426,7 @@ class _Problem:
                 remedy="check the setup values and that the sweep covers the resonance",
                 path=self.sweep.source,
             )
-        return self.to_result(result, first, noise)
+        return self.to_result(result, first, noise, (weights.sigma / noise.sigma) ** 2)
 
     def covariance_at(self, result, idx, noise: Noise):
         """(J^T J)^-1 from central differences, when lmfit's own estimate failed (a
@@ -417,7 +459,9 @@ class _Problem:
                 path=self.sweep.source,
             )
 
-    def to_result(self, result, first: _FirstPass, noise: Noise) -> CircuitFit:
+    def to_result(self, result, first: _FirstPass, noise: Noise, chi_scale: float) -> CircuitFit:
+        """The CircuitFit; ``chi_scale`` turns the pass's chi-square into one against
+        ``noise`` (the pass may have run with unit weights)."""
         quantities, undetermined, uvalues = self.quantities(result, first.null_dirs)
         self.check_inside(quantities["f0_hz"].value, "the fitted resonance")
         used = first.used
@@ -428,19 +472,23 @@ class _Problem:
             mag = np.abs(a + 1j * b) if b is not None else np.abs(a)
             rms = float(np.sqrt(np.mean(mag**2)))
             rms_unit = {"volts": "V", "impedance": "ohm"}.get(self.sweep.kind, "")
+        chi2 = float(result.chisqr) * chi_scale
+        n, k = int(result.ndata), int(result.nvarys)
+        redchi = chi2 / max(result.nfree, 1)
         stats = FitStats(
             points=self.sweep.points,
             used_points=int(used.size),
-            redchi=float(result.redchi),
+            redchi=redchi,
             rms=rms,
             rms_unit=rms_unit,
-            aic=float(result.aic),
-            bic=float(result.bic),
+            # as lmfit defines them, from the chi-square against the noise
+            aic=n * math.log(chi2 / n) + 2 * k,
+            bic=n * math.log(chi2 / n) + k * math.log(n),
             converged=bool(result.success and result.errorbars),
             noise=noise.describe(self.sweep.kind),
             start=first.start.method,
             outliers_hz=[float(x) for x in self.f[first.outliers]],
-            warnings=self.warnings(result, quantities, first.start, noise, used),
+            warnings=self.warnings(result, redchi, quantities, first.start, noise, used),
         )
         determined = [n for n in quantities if quantities[n].determined]
         fit = CircuitFit(
@@ -509,7 +557,7 @@ class _Problem:
             "in the loop (a smaller sense resistor, an impedance analyser)",
         )
 
-    def warnings(self, result, q: dict, start: Start, noise: Noise, used) -> list:
+    def warnings(self, result, redchi: float, q: dict, start: Start, noise: Noise, used) -> list:
         out = []
         f0, ql = q["f0_hz"].value, q["Q_loaded"].value if q["Q_loaded"].determined else None
         if ql:
@@ -553,14 +601,14 @@ class _Problem:
                 )
         if noise.stated:
             dof = max(result.nfree, 1)
-            if result.redchi > 1.0 + 4.0 * math.sqrt(2.0 / dof):
+            if redchi > 1.0 + 4.0 * math.sqrt(2.0 / dof):
                 out.append(
-                    f"reduced chi-square {result.redchi:.2f} with the stated noise: the noise "
+                    f"reduced chi-square {redchi:.2f} with the stated noise: the noise "
                     "is larger than stated or the model does not fit"
                 )
-            elif result.redchi < 1.0 - 4.0 * math.sqrt(2.0 / dof):
+            elif redchi < 1.0 - 4.0 * math.sqrt(2.0 / dof):
                 out.append(
-                    f"reduced chi-square {result.redchi:.2f}: the stated noise is larger than "
+                    f"reduced chi-square {redchi:.2f}: the stated noise is larger than "
                     "the scatter seen; the uncertainties are pessimistic"
                 )
         return out

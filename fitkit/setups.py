@@ -151,9 +151,13 @@ class Setup:
             return 0.0 * one, 2 * z0 * one, one, 2 * z0 * one
         return 2.0 * one, 0.0 * one, 2.0 * one, z0 * one  # shunt-through
 
-    def response(self, z: np.ndarray, freq_hz: np.ndarray) -> np.ndarray:
-        """What the instrument reads when the circuit has impedance ``z``."""
-        a, b, c, d = self.coefficients(freq_hz)
+    def response(self, z: np.ndarray, freq_hz: np.ndarray, coefficients=None) -> np.ndarray:
+        """What the instrument reads when the circuit has impedance ``z``.
+
+        ``coefficients``, from :meth:`coefficients` at the same frequencies, saves
+        computing them again inside a fit's loop.
+        """
+        a, b, c, d = self.coefficients(freq_hz) if coefficients is None else coefficients
         return (a * z + b) / (c * z + d)
 
     def impedance_from(self, measured: np.ndarray, freq_hz: np.ndarray) -> tuple:
