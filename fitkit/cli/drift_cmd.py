@@ -86,9 +86,16 @@ def drift_command(unit, reference, nominal, spec_file, noise, as_json, **opts):
         click.echo(
             f"  {label:<33} {format_quantity(c.reference, unit_name, ref_u):>28} -> "
             f"{format_quantity(c.value, unit_name, c.value_u or None):>28}  "
-            f"change {c.relative * 100:+7.2f}% +/- {c.u / abs(c.reference) * 100:.2f}%  "
+            f"change {_percent(c.relative, c.u / abs(c.reference)):>20}  "
             f"z = {c.z:+.1f}"
         )
     click.echo(f"  (a change counts when |z| > {SIGNIFICANT_Z:g}; u = sqrt(u^2 + u_ref^2))")
     for line in words:
         click.echo(f"  reading: {line}")
+
+
+def _percent(relative: float, relative_u: float) -> str:
+    """'-2.8720% +/- 0.0020%': the change to the precision its uncertainty allows."""
+    value, _, u = format_quantity(relative * 100, "", relative_u * 100).partition(" +/- ")
+    sign = "+" if relative >= 0 and not value.startswith("-") else ""
+    return f"{sign}{value}% +/- {u}%" if u else f"{sign}{value}%"
