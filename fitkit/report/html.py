@@ -168,7 +168,7 @@ def batch_report(summary: dict, settings: dict, plots: dict) -> str:
     body = [
         f"<p>{len(rows)} file(s): {counts}.</p>",
         f"<p>Rule: {_e(summary['rule'])}. Specification: {_e(summary.get('spec'))}.</p>",
-        f"<p>Settings: <code>{_e(settings)}</code></p>",
+        f"<p>Settings: {_settings_text(settings)}</p>",
         "<h2>Units</h2>",
         _table(headers, table),
     ]
@@ -196,6 +196,19 @@ def _stats_table(stats: dict) -> str:
         rows.append([_e(QUANTITIES[q][1]), _e(s["n"])] + [_e(c) for c in cells])
     headers = ["value", "n", "mean", "standard deviation", "min", "max", "median", "MAD"]
     return _table(headers, rows)
+
+
+def _settings_text(settings: dict) -> str:
+    """The batch's fit settings in words (escaped): model, setup file, overrides, noise."""
+    parts = [f"circuit model {settings.get('topology', 'auto')}"]
+    parts.append(f"setup file {settings.get('setup_path') or 'beside each sweep'}")
+    given = {k: v for k, v in (settings.get("overrides") or {}).items() if v is not None}
+    if given:
+        parts.append("bench options " + ", ".join(f"{k} = {v}" for k, v in given.items()))
+    if settings.get("known"):
+        parts.append("known " + ", ".join(settings["known"]))
+    parts.append(f"noise {settings.get('noise') or 'estimated from each fit'}")
+    return _e("; ".join(parts))
 
 
 def batch_plots(rows: list[dict], settings: dict) -> dict:
