@@ -1,21 +1,7 @@
 """Predictions from a fitted series R-L-C: retune, rejection of carriers, affordable loss.
 
-One chain response serves every placement. The circuit sits either in series between a
-source resistance and a load, or across the line between them (a trap); the load may have
-a capacitance across it (a probe, a receiver's input). With ``Yl`` the load admittance and
-``Zc = R + j (w L - 1/(w C))`` the circuit, the voltage transfer from the source EMF to the
-load is ``1 / D`` with::
-
-    series:  D = 1 + (Rsource + Zc) Yl
-    shunt:   D = 1 + Rsource (1/Zc + Yl)
-
-so the power ratio of the wanted carrier to an unwanted one at the output, at equal drive,
-is ``|D(f_unwanted)|^2 / |D(f_wanted)|^2``. For a series circuit in a resistive loop this is
-the textbook ``1 + Q_L^2 (f/f0 - f0/f)^2`` with ``Q_L = w0 L / (R + Rsource + Rload)``.
-
-``D`` is computed in real arithmetic on (real, imaginary) pairs, because ``uncertainties``
-has no complex numbers: the same code then runs on floats, numpy arrays (plots) and
-correlated ``uncertainties`` values (error bars that keep the L-C correlation).
+Every answer comes from the chain response of :mod:`fitkit.chain`, evaluated on floats or
+on correlated ``uncertainties`` values, so each carries the fit's error bars.
 """
 
 from __future__ import annotations
@@ -23,151 +9,13 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 
-import numpy as np
 from scipy.optimize import brentq
 from uncertainties import UFloat, umath, wrap
 
+from fitkit.chain import TWO_PI, Chain, Pair, nominal, rejection_db
 from fitkit.errors import PredictionError
 from fitkit.result import COMPONENTS, CircuitFit
-from fitkit.setups import Setup
 from fitkit.units import format_quantity
-
-PLACEMENTS = ("series", "shunt")
-TWO_PI = 2.0 * math.pi
-
-
-@dataclass(frozen=True)
-class _Pair:
-    """A complex number as two real parts, for values numpy's complex type cannot hold."""
-
-    re: object
-    im: object = 0.0
-
-    def __add__(self, other):
-        o = _as_pair(other)
-        return _Pair(self.re + o.re, self.im + o.im)
-
-    __radd__ = __add__
-
-    def __mul__(self, other):
-        o = _as_pair(other)
-        return _Pair(self.re * o.re - self.im * o.im, self.re * o.im + self.im * o.re)
-
-    __rmul__ = __mul__
-
-    def __rtruediv__(self, other):
-        o = _as_pair(other)
-        d = self.abs2()
-        return _Pair((o.re * self.re + o.im * self.im) / d, (o.im * self.re - o.re * self.im) / d)
-
-    def abs2(self):
-        return self.re * self.re + self.im * self.im
-
-
-def _as_pair(x) -> _Pair:
-    return x if isinstance(x, _Pair) else _Pair(x, 0.0)
-
-
-@dataclass(frozen=True)
-class Chain:
-    """Where the circuit sits in service.
-
-    Attributes
-    ----------
-    placement : str
-        ``"series"`` (between source and load) or ``"shunt"`` (across the line).
-    source_ohm : float
-        Resistance of the source driving the chain.
-    load_ohm : float or None
-        Resistance of the load; ``None`` for no resistive load (shunt placement only).
-    load_f : float
-        Capacitance across the load (probe, input capacitance).
-    origin : str
-        Where the description came from, for the report.
-    """
-
-    placement: str = "series"
-    source_ohm: float = 0.0
-    load_ohm: float | None = None
-    load_f: float = 0.0
-    origin: str = "as described"
-
-    def __post_init__(self) -> None:
-        if self.placement not in PLACEMENTS:
-            raise PredictionError(
-                f"unknown placement {self.placement!r}", remedy="choose series or shunt"
-            )
-        for name in ("source_ohm", "load_f"):
-            value = getattr(self, name)
-            if not (math.isfinite(value) and value >= 0):
-                raise PredictionError(
-                    f"the chain's {name} = {value!r} must be a finite value >= 0",
-                    remedy="give a resistance or capacitance of 0 or more",
-                )
-        if self.load_ohm is not None and not (math.isfinite(self.load_ohm) and self.load_ohm > 0):
-            raise PredictionError(
-                f"the chain's load resistance {self.load_ohm!r} ohm must be above 0",
-                remedy="give the load's input resistance, e.g. 50 or 2k",
-            )
-        if self.placement == "series" and self.load_ohm is None:
-            raise PredictionError(
-                "a series circuit needs a load resistance to deliver to",
-                remedy="give the load resistance of the chain (e.g. the receiver's input)",
-            )
-        if self.placement == "shunt" and self.source_ohm == 0:
-            raise PredictionError(
-                "a circuit across a line driven from 0 ohm cannot change the output",
-                remedy="give the source resistance that drives the line",
-            )
-
-    @property
-    def loop_ohm(self) -> float:
-        """Resistance the chain puts in series with the circuit (sets the loaded Q)."""
-        if self.placement == "series":
-            return self.source_ohm + self.load_ohm
-        if self.load_ohm is None:
-            return self.source_ohm
-        return self.source_ohm * self.load_ohm / (self.source_ohm + self.load_ohm)
-
-    def describe(self) -> str:
-        """One line: placement and resistances."""
-        where = "in series between" if self.placement == "series" else "across the line between"
-        load = "no load" if self.load_ohm is None else format_quantity(self.load_ohm, "ohm")
-        text = f"{where} source {format_quantity(self.source_ohm, 'ohm')} and load {load}"
-        if self.load_f:
-            text += f" || {format_quantity(self.load_f, 'F')}"
-        return f"{text} ({self.origin})"
-
-    def to_dict(self) -> dict:
-        return {
-            "placement": self.placement,
-            "source_ohm": self.source_ohm,
-            "load_ohm": self.load_ohm,
-            "load_f": self.load_f,
-            "loop_ohm": self.loop_ohm,
-            "origin": self.origin,
-        }
-
-
-def chain_from_setup(setup: dict) -> Chain:
-    """The chain the circuit sat in on the bench, from a fit's ``setup`` dictionary.
-
-    Raises
-    ------
-    PredictionError
-        For benches with no chain (an impedance or reflection reading).
-    """
-    s = Setup(**setup)
-    origin = "the bench setup"
-    if s.bench == "divider":
-        source = s.source_ohm if s.source_in_loop else 0.0
-        return Chain("series", source, s.sense_ohm, s.probe_f, origin)
-    if s.bench in ("series-through", "shunt-through"):
-        return Chain(s.bench.split("-")[0], s.z0_ohm, s.z0_ohm, 0.0, origin)
-    raise PredictionError(
-        f"a {s.bench} bench reads the circuit alone, with no chain around it",
-        remedy="describe the chain in service: placement, source and load resistance",
-    )
 
 
 def values_from_fit(fit: CircuitFit) -> dict:
@@ -198,7 +46,7 @@ def values_from_fit(fit: CircuitFit) -> dict:
 def check_values(values: dict) -> dict:
     """Refuse component values no circuit has; return them unchanged."""
     for name, low_ok in (("R", True), ("L", False), ("C", False)):
-        v = _nominal(values[name])
+        v = nominal(values[name])
         if not math.isfinite(v) or v < 0 or (v == 0 and not low_ok):
             raise PredictionError(
                 f"{name} = {v!r} is not a component value",
@@ -218,56 +66,6 @@ def check_hz(freq_hz: float, what: str) -> float:
     return f
 
 
-def _denominator_abs2(freq_hz, values: dict, chain: Chain):
-    """``|D|^2`` of the chain (see the module docstring); floats, arrays or ufloats."""
-    w = TWO_PI * freq_hz
-    zc = _Pair(values["R"], w * values["L"] - 1.0 / (w * values["C"]))
-    yl = _Pair(0.0 if chain.load_ohm is None else 1.0 / chain.load_ohm, w * chain.load_f)
-    if chain.placement == "series":
-        d = 1.0 + (chain.source_ohm + zc) * yl
-    else:
-        d = 1.0 + chain.source_ohm * (1.0 / zc + yl)
-    return d.abs2()
-
-
-def rejection_db(freq_hz: float, wanted_hz: float, values: dict, chain: Chain):
-    """Rejection of a carrier at ``freq_hz`` relative to the wanted one, in dB, equal drive.
-
-    Parameters
-    ----------
-    freq_hz, wanted_hz : float
-        The unwanted and the wanted carrier.
-    values : dict
-        ``R``, ``L``, ``C`` as floats or (correlated) ``uncertainties`` values.
-    chain : Chain
-        Where the circuit sits.
-
-    Returns
-    -------
-    float or UFloat
-        ``10 log10(P_wanted / P_unwanted)`` at the load.
-
-    Examples
-    --------
-    >>> chain = Chain("series", 0.0, 50.0)
-    >>> round(rejection_db(1.01e6, 1e6, {"R": 0.0, "L": 7.957747e-4, "C": 3.183099e-11},
-    ...                    chain), 2)
-    6.96
-    """
-    ratio = _denominator_abs2(freq_hz, values, chain) / _denominator_abs2(
-        wanted_hz, values, chain
-    )
-    return 10.0 * umath.log10(ratio)
-
-
-def response_db(freq_hz: np.ndarray, wanted_hz: float, values: dict, chain: Chain) -> np.ndarray:
-    """The chain's response in dB relative to the wanted carrier (nominal values, arrays)."""
-    nominal = {n: _nominal(v) for n, v in values.items()}
-    f = np.asarray(freq_hz, dtype=np.float64)
-    ratio = _denominator_abs2(wanted_hz, nominal, chain) / _denominator_abs2(f, nominal, chain)
-    return 10.0 * np.log10(ratio)
-
-
 def tuning_c(tune_hz: float, l_h, chain: Chain):
     """The capacitance that tunes the chain to ``tune_hz``: ``C = 1 / (w (w L + X))``.
 
@@ -284,10 +82,10 @@ def tuning_c(tune_hz: float, l_h, chain: Chain):
     w = TWO_PI * check_hz(tune_hz, "tuning frequency")
     extra = 0.0
     if chain.placement == "series" and chain.load_f:
-        load = 1.0 / _Pair(1.0 / chain.load_ohm, w * chain.load_f)
+        load = 1.0 / Pair(1.0 / chain.load_ohm, w * chain.load_f)
         extra = load.im
     needed = w * l_h + extra
-    if _nominal(needed) <= 0:
+    if nominal(needed) <= 0:
         raise PredictionError(
             f"no capacitance tunes this chain to {format_quantity(tune_hz, 'Hz')}: the "
             "load's capacitance outweighs the coil there",
@@ -324,10 +122,10 @@ def needed_q(power_ratio: float, freq_hz: float, f0_hz: float) -> float:
 def check_capacitor(c_f, c_range_f: tuple, tune_hz: float, l_h) -> None:
     """Refuse a tuning capacitance outside the capacitor's range, naming what it reaches."""
     c_min, c_max = _check_range(c_range_f)
-    c = _nominal(c_f)
+    c = nominal(c_f)
     if c_min <= c <= c_max:
         return
-    f_lo, f_hi = (_nominal(resonance_hz(l_h, x)) for x in (c_max, c_min))
+    f_lo, f_hi = (nominal(resonance_hz(l_h, x)) for x in (c_max, c_min))
     side = "above the capacitor's maximum" if c > c_max else "below the capacitor's minimum"
     raise PredictionError(
         f"tuning to {format_quantity(tune_hz, 'Hz')} needs C = {format_quantity(c, 'F')}, "
@@ -371,7 +169,7 @@ def band_cover(band_hz: tuple, l_h, chain: Chain, c_range_f: tuple | None = None
     if c_range_f is not None:
         c_min, c_max = _check_range(c_range_f)
         given = c_max / c_min
-        covered = c_min <= _nominal(needed[0]) and _nominal(needed[1]) <= c_max
+        covered = c_min <= nominal(needed[0]) and nominal(needed[1]) <= c_max
     return BandCover((f_lo, f_hi), needed, (f_hi / f_lo) ** 2, given, covered)
 
 
@@ -434,7 +232,7 @@ def loss_limit(
     for carrier in carriers:
         solve = wrap(_r_max_solver(carrier, wanted_hz, required_db, chain))
         per.append((carrier, solve(values["L"], values["C"])))
-    binding, r_max = min(per, key=lambda pair: _nominal(pair[1]))
+    binding, r_max = min(per, key=lambda pair: nominal(pair[1]))
     w0 = TWO_PI * resonance_hz(values["L"], values["C"])
     q_min = w0 * values["L"] / (r_max + chain.loop_ohm)
     return LossLimit(required_db, binding, r_max, q_min, per)
@@ -524,7 +322,7 @@ class Prediction:
                 "binding_freq_hz": lim.binding.freq_hz,
                 "r_max_ohm": _udict(lim.r_max_ohm, "ohm"),
                 "q_loaded_min": _udict(lim.q_loaded_min, ""),
-                "met_now": _nominal(self.values["R"]) <= _nominal(lim.r_max_ohm),
+                "met_now": nominal(self.values["R"]) <= nominal(lim.r_max_ohm),
             }
         return out
 
@@ -583,7 +381,7 @@ def predict(
     0.24
     """
     values = check_values(dict(values))
-    own_hz = _nominal(resonance_hz(values["L"], values["C"]))
+    own_hz = nominal(resonance_hz(values["L"], values["C"]))
     wanted = own_hz if wanted_hz is None else check_hz(wanted_hz, "wanted carrier")
     tune = wanted if tune_hz is None else check_hz(tune_hz, "tuning frequency")
     origin = "as given"
@@ -594,9 +392,7 @@ def predict(
             check_capacitor(values["C"], c_range_f, tune, values["L"])
     for carrier in carriers:
         check_hz(carrier.freq_hz, f"carrier {carrier.label or ''}".strip())
-    results = [
-        CarrierResult(c, rejection_db(c.freq_hz, wanted, values, chain)) for c in carriers
-    ]
+    results = [CarrierResult(c, rejection_db(c.freq_hz, wanted, values, chain)) for c in carriers]
     band = None if band_hz is None else band_cover(band_hz, values["L"], chain, c_range_f)
     limit = None
     if required_db is not None:
@@ -621,14 +417,10 @@ def value_and_error(x) -> tuple:
     An error below 1e-9 of the value is rounding left over where the error cancels
     exactly (the smallest loaded Q for a resistive chain does not depend on L), so it is 0.
     """
-    value, err = _nominal(x), float(getattr(x, "std_dev", 0.0))
+    value, err = nominal(x), float(getattr(x, "std_dev", 0.0))
     return value, (0.0 if err <= 1e-9 * abs(value) else err)
 
 
 def _udict(x, unit: str) -> dict:
     value, err = value_and_error(x)
     return {"value": value, "stderr": err, "unit": unit}
-
-
-def _nominal(x) -> float:
-    return float(getattr(x, "nominal_value", x))

@@ -7,19 +7,10 @@ import math
 import numpy as np
 import pytest
 
+from fitkit.chain import Chain, chain_from_setup, rejection_db
 from fitkit.circuits import series_rlc
 from fitkit.errors import PredictionError
-from fitkit.predict import (
-    Carrier,
-    Chain,
-    band_cover,
-    chain_from_setup,
-    loss_limit,
-    needed_q,
-    predict,
-    rejection_db,
-    tuning_c,
-)
+from fitkit.predict import Carrier, band_cover, loss_limit, needed_q, predict, tuning_c
 from fitkit.setups import Setup
 
 TWO_PI = 2.0 * math.pi
@@ -130,7 +121,10 @@ def test_bench_setups_become_chains():
     terminal = Setup("divider", "ratio", sense_ohm=47.0, probe_f=15e-12).to_dict()
     chain = chain_from_setup(terminal)
     assert (chain.placement, chain.source_ohm, chain.load_ohm, chain.load_f) == (
-        "series", 0.0, 47.0, 15e-12
+        "series",
+        0.0,
+        47.0,
+        15e-12,
     )
     open_circuit = Setup("divider", "ratio", sense_ohm=10.0, reference="open-circuit")
     assert chain_from_setup(open_circuit.to_dict()).loop_ohm == 60.0

@@ -42,8 +42,22 @@ def test_saved_fit_prints_tuning_and_rejections(saved_fit):
 
 
 def test_json_has_the_promised_shape(saved_fit):
-    out = run("--saved-fit", saved_fit, "--wanted", "999k", "--raster", "mw-9k",
-              "--image-if", "455k", "--carrier", "+27k,+12", "--require-db", "1", "--json", *CHAIN)
+    out = run(
+        "--saved-fit",
+        saved_fit,
+        "--wanted",
+        "999k",
+        "--raster",
+        "mw-9k",
+        "--image-if",
+        "455k",
+        "--carrier",
+        "+27k,+12",
+        "--require-db",
+        "1",
+        "--json",
+        *CHAIN,
+    )
     assert out.exit_code == 0, out.output
     data = json.loads(out.output)
     offsets = sorted(c["offset_hz"] for c in data["carriers"])
@@ -64,8 +78,9 @@ def test_json_has_the_promised_shape(saved_fit):
     q = data["q_loaded"]["value"]
     y = 1909e3 / 999e3 - 999e3 / 1909e3
     image = next(c for c in data["carriers"] if c["label"] == "image")
-    assert image["rejection_db"]["value"] == pytest.approx(10 * math.log10(1 + (q * y) ** 2),
-                                                           rel=1e-4)
+    assert image["rejection_db"]["value"] == pytest.approx(
+        10 * math.log10(1 + (q * y) ** 2), rel=1e-4
+    )
 
 
 def test_sweep_file_with_its_bench_setup():

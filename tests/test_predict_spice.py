@@ -5,7 +5,8 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from fitkit.predict import Chain, rejection_db, tuning_c
+from fitkit.chain import Chain, rejection_db
+from fitkit.predict import tuning_c
 from tests.spice import run_ac, spice_value
 
 L_H, R_OHM = 220e-6, 6.8

@@ -5,16 +5,9 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
+from fitkit.chain import chain_from_setup, rejection_db
 from fitkit.fitting import fit_sweep
-from fitkit.predict import (
-    Carrier,
-    chain_from_setup,
-    loss_limit,
-    predict,
-    rejection_db,
-    tuning_c,
-    values_from_fit,
-)
+from fitkit.predict import Carrier, loss_limit, predict, tuning_c, values_from_fit
 from tests.synthetic import SETUPS, make_sweep
 
 SAMPLES = 4000
@@ -41,8 +34,9 @@ def test_rejection_error_matches_monte_carlo(fit, retune):
     # the linearised standard error should match the spread of the sampled rejections
     chain = chain_from_setup(fit.setup)
     wanted, unwanted = 500e3, 540e3
-    p = predict(values_from_fit(fit), chain, wanted_hz=wanted, retune=retune,
-                carriers=(Carrier(unwanted),))
+    p = predict(
+        values_from_fit(fit), chain, wanted_hz=wanted, retune=retune, carriers=(Carrier(unwanted),)
+    )
     propagated = p.carriers[0].rejection_db.std_dev
     sampled = []
     for r, l_h, c_f in draws(fit, seed=5):

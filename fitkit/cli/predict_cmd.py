@@ -9,20 +9,11 @@ import click
 from uncertainties import ufloat
 
 from fitkit.bench_file import parse_known
+from fitkit.chain import PLACEMENTS, Chain, chain_from_setup, response_db
 from fitkit.cli.base import main, reports_errors
 from fitkit.cli.fit_cmd import bench_options, overrides_from_options
 from fitkit.errors import InputError, PredictionError
-from fitkit.predict import (
-    PLACEMENTS,
-    Carrier,
-    Chain,
-    Prediction,
-    chain_from_setup,
-    predict,
-    response_db,
-    value_and_error,
-    values_from_fit,
-)
+from fitkit.predict import Carrier, Prediction, predict, value_and_error, values_from_fit
 from fitkit.rasters import RASTERS, get_raster
 from fitkit.result import COMPONENTS, load_fit
 from fitkit.units import format_quantity, parse_quantity
