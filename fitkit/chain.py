@@ -30,6 +30,8 @@ from fitkit.setups import Setup
 from fitkit.units import format_quantity
 
 PLACEMENTS = ("series", "shunt")
+#: the circuits a chain can hold: a series R-L-C, or a tank (coil with loss R across C)
+CIRCUITS = ("series", "tank")
 TWO_PI = 2.0 * math.pi
 
 
@@ -81,6 +83,9 @@ class Chain:
         Capacitance across the load (probe, input capacitance).
     origin : str
         Where the description came from, for the report.
+    circuit : str
+        What sits in the chain: ``"series"`` R-L-C or ``"tank"`` (a coil with loss R
+        across C), one of :data:`CIRCUITS`.
     """
 
     placement: str = "series"
@@ -88,11 +93,17 @@ class Chain:
     load_ohm: float | None = None
     load_f: float = 0.0
     origin: str = "as described"
+    circuit: str = "series"
 
     def __post_init__(self) -> None:
         if self.placement not in PLACEMENTS:
             raise PredictionError(
                 f"unknown placement {self.placement!r}", remedy="choose series or shunt"
+            )
+        if self.circuit not in CIRCUITS:
+            raise PredictionError(
+                f"predictions cover a series R-L-C or a tank, not a {self.circuit} circuit",
+                remedy="fit the sweep as a series circuit or a tank (--model series|tank)",
             )
         for name in ("source_ohm", "load_f"):
             value = getattr(self, name)
@@ -129,6 +140,8 @@ class Chain:
     def describe(self) -> str:
         """One line: placement and resistances."""
         where = "in series between" if self.placement == "series" else "across the line between"
+        if self.circuit == "tank":
+            where = "a tank " + where
         load = "no load" if self.load_ohm is None else format_quantity(self.load_ohm, "ohm")
         text = f"{where} source {format_quantity(self.source_ohm, 'ohm')} and load {load}"
         if self.load_f:
@@ -138,6 +151,7 @@ class Chain:
     def to_dict(self) -> dict:
         return {
             "placement": self.placement,
+            "circuit": self.circuit,
             "source_ohm": self.source_ohm,
             "load_ohm": self.load_ohm,
             "load_f": self.load_f,
@@ -170,7 +184,10 @@ def chain_from_setup(setup: dict) -> Chain:
 def denominator_abs2(freq_hz, values: dict, chain: Chain):
     """``|D|^2`` of the chain (see the module docstring); floats, arrays or ufloats."""
     w = TWO_PI * freq_hz
-    zc = Pair(values["R"], w * values["L"] - 1.0 / (w * values["C"]))
+    if chain.circuit == "tank":
+        zc = 1.0 / (1.0 / Pair(values["R"], w * values["L"]) + Pair(0.0, w * values["C"]))
+    else:
+        zc = Pair(values["R"], w * values["L"] - 1.0 / (w * values["C"]))
     yl = Pair(0.0 if chain.load_ohm is None else 1.0 / chain.load_ohm, w * chain.load_f)
     if chain.placement == "series":
         d = 1.0 + (chain.source_ohm + zc) * yl

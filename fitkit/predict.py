@@ -12,7 +12,7 @@ from dataclasses import dataclass, field
 from scipy.optimize import brentq
 from uncertainties import UFloat, umath, wrap
 
-from fitkit.chain import TWO_PI, Chain, Pair, nominal, rejection_db
+from fitkit.chain import CIRCUITS, TWO_PI, Chain, Pair, nominal, rejection_db
 from fitkit.errors import PredictionError
 from fitkit.result import COMPONENTS, CircuitFit
 from fitkit.units import format_quantity
@@ -24,12 +24,14 @@ def values_from_fit(fit: CircuitFit) -> dict:
     Raises
     ------
     PredictionError
-        When the fit is not of a series circuit or did not determine one of the values.
+        When the fit is not of a series circuit or a tank, or did not determine one of
+        the values.
     """
-    if fit.topology != "series":
+    if fit.topology not in CIRCUITS:
         raise PredictionError(
-            f"predictions cover the series R-L-C; this fit is a {fit.topology} circuit",
-            remedy="fit the sweep as a series circuit, or type R, L and C with --value",
+            f"predictions cover a series R-L-C or a tank; this fit is a {fit.topology} circuit",
+            remedy="fit the sweep as a series circuit or a tank (--model series|tank), "
+            "or type R, L and C with --value",
         )
     missing = [n for n in COMPONENTS if not fit[n].determined]
     if missing:
@@ -80,6 +82,8 @@ def tuning_c(tune_hz: float, l_h, chain: Chain):
         When no capacitance can tune the chain there.
     """
     w = TWO_PI * check_hz(tune_hz, "tuning frequency")
+    if chain.circuit == "tank":
+        return 1.0 / (w * w * l_h)  # the tank's own resonance on the carrier
     extra = 0.0
     if chain.placement == "series" and chain.load_f:
         load = 1.0 / Pair(1.0 / chain.load_ohm, w * chain.load_f)
@@ -100,8 +104,16 @@ def resonance_hz(l_h, c_f):
 
 
 def loaded_q(values: dict, chain: Chain):
-    """``Q_L = w0 L / (R + chain.loop_ohm)`` at the circuit's own resonance."""
+    """The circuit's Q with the chain's resistance loading it, at its own resonance.
+
+    A series circuit: ``w0 L / (R + Rloop)``. A tank, whose dynamic resistance
+    ``R_D = L / (R C)`` the chain's resistance damps: ``Q Rloop / (Rloop + R_D)`` with
+    ``Q = w0 L / R`` (derived from the parallel-circuit relations, as for the fit).
+    """
     w0 = TWO_PI * resonance_hz(values["L"], values["C"])
+    if chain.circuit == "tank":
+        r_dynamic = values["L"] / (values["R"] * values["C"])
+        return (w0 * values["L"] / values["R"]) * chain.loop_ohm / (chain.loop_ohm + r_dynamic)
     return w0 * values["L"] / (values["R"] + chain.loop_ohm)
 
 
@@ -233,9 +245,19 @@ def loss_limit(
         solve = wrap(_r_max_solver(carrier, wanted_hz, required_db, chain))
         per.append((carrier, solve(values["L"], values["C"])))
     binding, r_max = min(per, key=lambda pair: nominal(pair[1]))
-    w0 = TWO_PI * resonance_hz(values["L"], values["C"])
-    q_min = w0 * values["L"] / (r_max + chain.loop_ohm)
+    q_min = loaded_q({"R": r_max, "L": values["L"], "C": values["C"]}, chain)
     return LossLimit(required_db, binding, r_max, q_min, per)
+
+
+_MORE_Q = {
+    "series": "raise the loaded Q: a larger L with a smaller C, less source and load "
+    "resistance in the loop (tap the coil or couple through a transformer), or a second "
+    "tuned circuit",
+    "tank": "raise the loaded Q: load the tank more lightly (more source and load "
+    "resistance across it: tap the coil or couple through a transformer), a smaller L with "
+    "a larger C, or a second tuned circuit",
+}
+_LOSSLESS_OHM = 1e-9  # "no loss": a lossless tank at resonance would divide by zero
 
 
 def _r_max_solver(carrier: Carrier, wanted_hz: float, required_db: float, chain: Chain):
@@ -244,20 +266,18 @@ def _r_max_solver(carrier: Carrier, wanted_hz: float, required_db: float, chain:
         return rejection_db(carrier.freq_hz, wanted_hz, v, chain) - required_db
 
     def solve(l_h: float, c_f: float) -> float:
-        best = margin(0.0, l_h, c_f)
+        best = margin(_LOSSLESS_OHM, l_h, c_f)
         if best < 0:
             raise PredictionError(
                 f"even a lossless circuit (R = 0) in this chain rejects the carrier at "
                 f"{format_quantity(carrier.freq_hz, 'Hz')} by only {best + required_db:.1f} dB, "
                 f"not the {required_db:g} dB required",
-                remedy="raise the loaded Q: a larger L with a smaller C, less source and "
-                "load resistance in the loop (tap the coil or couple through a transformer), "
-                "or a second tuned circuit",
+                remedy=_MORE_Q[chain.circuit],
             )
         high = max(chain.loop_ohm, 1.0)
         for _ in range(200):
             if margin(high, l_h, c_f) < 0:
-                return brentq(margin, 0.0, high, args=(l_h, c_f), xtol=1e-12, rtol=1e-13)
+                return brentq(margin, _LOSSLESS_OHM, high, args=(l_h, c_f), xtol=1e-12, rtol=1e-13)
             high *= 4.0
         raise PredictionError(  # the chain rejects the carrier whatever the circuit's loss
             f"the carrier at {format_quantity(carrier.freq_hz, 'Hz')} is rejected by "
@@ -414,11 +434,11 @@ def predict(
 def value_and_error(x) -> tuple:
     """Value and standard error of a float or an ``uncertainties`` value.
 
-    An error below 1e-9 of the value is rounding left over where the error cancels
-    exactly (the smallest loaded Q for a resistive chain does not depend on L), so it is 0.
+    An error below 1e-6 of the value is rounding left over where the error cancels
+    (the smallest loaded Q depends on the requirement, not on L and C), so it is 0.
     """
     value, err = nominal(x), float(getattr(x, "std_dev", 0.0))
-    return value, (0.0 if err <= 1e-9 * abs(value) else err)
+    return value, (0.0 if err <= 1e-6 * abs(value) else err)
 
 
 def _udict(x, unit: str) -> dict:

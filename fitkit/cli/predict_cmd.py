@@ -3,19 +3,21 @@
 from __future__ import annotations
 
 import json
+from dataclasses import replace
 from pathlib import Path
 
 import click
 from uncertainties import ufloat
 
 from fitkit.bench_file import parse_known
-from fitkit.chain import PLACEMENTS, Chain, chain_from_setup, response_db
+from fitkit.chain import CIRCUITS, PLACEMENTS, Chain, chain_from_setup, response_db
 from fitkit.cli.base import main, reports_errors
 from fitkit.cli.fit_cmd import bench_options, overrides_from_options
 from fitkit.errors import InputError, PredictionError
 from fitkit.predict import Carrier, Prediction, predict, value_and_error, values_from_fit
 from fitkit.rasters import RASTERS, get_raster
 from fitkit.result import COMPONENTS, load_fit
+from fitkit.topologies import TOPOLOGIES
 from fitkit.units import format_quantity, parse_quantity
 from fitkit.workflow import fit_file
 
@@ -34,6 +36,12 @@ from fitkit.workflow import fit_file
     multiple=True,
     metavar="NAME=VALUE",
     help="Start from typed values, each with an optional error: R=6.8+-0.1 L=220u+-1u C=1n.",
+)
+@click.option(
+    "--circuit",
+    type=click.Choice(CIRCUITS),
+    help="What typed values describe: a series R-L-C [default] or a tank (coil with loss R "
+    "across C). A fit brings its own.",
 )
 @click.option("--wanted", help="The wanted carrier (e.g. 999k); the circuit is retuned to it.")
 @click.option("--as-fitted", is_flag=True, help="Keep the fitted C instead of retuning.")
@@ -92,13 +100,14 @@ def predict_command(sweep_file, saved_fit, typed, as_json, plot_path, force, **o
             remedy="choose another name or add --force to replace it",
             path=plot_path,
         )
-    values, bench_chain, origin = _start(sweep_file, saved_fit, typed, opts)
+    values, bench_chain, origin, circuit = _start(sweep_file, saved_fit, typed, opts)
     chain = _chain(opts) or bench_chain
     if chain is None:
         raise PredictionError(
             "typed values come with no chain to sit in",
             remedy="describe it: --placement series --chain-source-r 50 --chain-load-r 50",
         )
+    chain = replace(chain, circuit=circuit)
     wanted = _hz(opts["wanted"], "wanted carrier")
     if wanted is None and (opts["raster"] or opts["image_if"] or _has_offsets(opts)):
         raise PredictionError(
@@ -135,7 +144,12 @@ def _start(sweep_file, saved_fit, typed, opts) -> tuple:
             remedy="a sweep file, --saved-fit FIT.json, or --value R=.. --value L=.. --value C=..",
         )
     if typed:
-        return _typed_values(typed), None, "typed values"
+        return _typed_values(typed), None, "typed values", opts.get("circuit") or "series"
+    if opts.get("circuit"):
+        raise InputError(
+            "--circuit describes typed values; a fit brings its own circuit",
+            remedy="drop --circuit, or fit the sweep with the model you mean (--model)",
+        )
     if saved_fit:
         fit = load_fit(saved_fit)
         origin = f"saved fit {saved_fit}"
@@ -145,7 +159,7 @@ def _start(sweep_file, saved_fit, typed, opts) -> tuple:
             setup_path=opts.get("setup_file"),
             overrides=overrides_from_options(opts),
             known=opts.get("known", ()),
-            topology="series",
+            topology="auto",
         )
         origin = f"fit of {sweep_file}"
     values = values_from_fit(fit)
@@ -153,7 +167,7 @@ def _start(sweep_file, saved_fit, typed, opts) -> tuple:
         chain = chain_from_setup(fit.setup)
     except PredictionError:
         chain = None  # an impedance or reflection bench: the user must describe the chain
-    return values, chain, origin
+    return values, chain, origin, fit.topology
 
 
 def _typed_values(typed) -> dict:
@@ -258,18 +272,24 @@ def _u(x, unit: str) -> str:
     return format_quantity(value, unit, err)
 
 
+def _loading(chain: Chain) -> str:
+    rloop = format_quantity(chain.loop_ohm, "ohm")
+    if chain.circuit == "tank":
+        return f"the chain's {rloop} damping the tank's dynamic resistance"
+    return f"R + {rloop} of the chain in the loop"
+
+
 def prediction_table(p: Prediction, origin: str) -> str:
     """The readable answer: circuit, chain, tuning, carriers, band and loss limit."""
     v = p.values
     lines = [
-        f"fitkit predict: series R-L-C from {origin}",
+        f"fitkit predict: {TOPOLOGIES[p.chain.circuit].label} from {origin}",
         f"  circuit  R {_u(v['R'], 'ohm')}, L {_u(v['L'], 'H')}",
         f"  chain    {p.chain.describe()}",
         f"  wanted   {format_quantity(p.wanted_hz, 'Hz')}",
         f"  tuning   C {_u(v['C'], 'F')} ({p.c_origin}"
         + (f", tuned to {format_quantity(p.tune_hz, 'Hz')})" if p.c_origin == "retuned" else ")"),
-        f"  loaded Q {_u(p.q_loaded, '')} "
-        f"(R + {format_quantity(p.chain.loop_ohm, 'ohm')} of the chain in the loop)",
+        f"  loaded Q {_u(p.q_loaded, '')} ({_loading(p.chain)})",
     ]
     if p.carriers:
         head = f"  {'carrier':<14}{'offset':>12}{'level':>9}   {'rejection':<27}  S/I at the output"
