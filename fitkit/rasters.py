@@ -86,8 +86,7 @@ class Raster:
             raise PredictionError(
                 f"the wanted carrier {format_quantity(wanted_hz, 'Hz')} is not on the "
                 f"{self.name} raster ({self.describe()})",
-                remedy="choose a wanted carrier on the raster, or list the neighbours "
-                "as carriers",
+                remedy="choose a wanted carrier on the raster, or list the neighbours as carriers",
             )
         centre = self.first_hz + round((wanted_hz - self.first_hz) / self.spacing_hz) * (
             self.spacing_hz

@@ -24,8 +24,16 @@ def run(*args):
 def test_fit_prints_values_with_uncertainties():
     out = run("fit", SERIES)
     assert out.exit_code == 0, out.output
-    for label in ("R (circuit loss)", "L ", "C ", "f0 (resonance)", "Q (circuit, unloaded)",
-                  "Q (loaded", "bandwidth -3 dB (circuit)", "correlation of L and C"):
+    for label in (
+        "R (circuit loss)",
+        "L ",
+        "C ",
+        "f0 (resonance)",
+        "Q (circuit, unloaded)",
+        "Q (loaded",
+        "bandwidth -3 dB (circuit)",
+        "correlation of L and C",
+    ):
         assert label in out.output
     assert "uH +/-" in out.output
     assert "fitkit-setup.toml" in out.output

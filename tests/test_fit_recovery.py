@@ -17,8 +17,14 @@ from tests.synthetic import SETUPS, TRUTH, make_sweep
 # Alexander & Sadiku, Fundamentals of Electric Circuits, ch. 14 (from memory).
 F0 = 1.0 / (2 * math.pi * math.sqrt(TRUTH["L"] * TRUTH["C"]))
 Q = math.sqrt(TRUTH["L"] / TRUTH["C"]) / TRUTH["R"]
-EXPECTED = {"R": TRUTH["R"], "L": TRUTH["L"], "C": TRUTH["C"], "f0_hz": F0, "Q": Q,
-            "bandwidth_hz": F0 / Q}
+EXPECTED = {
+    "R": TRUTH["R"],
+    "L": TRUTH["L"],
+    "C": TRUTH["C"],
+    "f0_hz": F0,
+    "Q": Q,
+    "bandwidth_hz": F0 / Q,
+}
 
 
 def _within(fit, name, expected, k=4.0):

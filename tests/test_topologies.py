@@ -56,13 +56,12 @@ def test_impedance_matches_ngspice(which, tmp_path):
             "Ldcpath port 0 1e12\n"
         )
         model = lambda f: coil_in_series(f, *COIL.values())  # noqa: E731
-    netlist = (
-        f"{which} impedance\nIprobe 0 port dc 0 ac 1\n{body}.ac dec 40 100k 20meg\n"
-    )
+    netlist = f"{which} impedance\nIprobe 0 port dc 0 ac 1\n{body}.ac dec 40 100k 20meg\n"
     freq, nodes = run_ac(netlist, ["port"], tmp_path)
     # the 1e12 H DC path shunts Z by j w 1e12 ohm: a relative change below 1e-6 here
-    assert_complex_close(model(freq), nodes["port"], rtol_mag=2e-6, atol_deg=1e-4,
-                         freq_hz=freq, what=which)
+    assert_complex_close(
+        model(freq), nodes["port"], rtol_mag=2e-6, atol_deg=1e-4, freq_hz=freq, what=which
+    )
 
 
 def test_tank_relations():
@@ -80,8 +79,9 @@ def test_coil_apparent_inductance_follows_terman():
     w = TWO_PI * f
     coil = coil_in_series(f, 0.0, COIL["L"], 1e30, COIL["C_self"])  # series C shorted
     l_app = coil.imag / w
-    np.testing.assert_allclose(l_app, COIL["L"] / (1 - w**2 * COIL["L"] * COIL["C_self"]),
-                               rtol=1e-9)
+    np.testing.assert_allclose(
+        l_app, COIL["L"] / (1 - w**2 * COIL["L"] * COIL["C_self"]), rtol=1e-9
+    )
 
 
 # --- recovery through every bench -----------------------------------------------------
