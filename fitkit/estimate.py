@@ -210,6 +210,7 @@ class _Search:
     def __init__(self, sweep, setup, topology, extras, skin_above_hz) -> None:
         self.sweep, self.setup, self.topology = sweep, setup, topology
         self.extras, self.skin = extras, skin_above_hz
+        self.coefficients = setup.coefficients(sweep.freq_hz)
 
     def cost(self, f0, q, log_scale: float) -> float:
         model = predicted(
@@ -221,6 +222,7 @@ class _Search:
             topology=self.topology,
             extras=self.extras,
             skin_above_hz=self.skin,
+            coefficients=self.coefficients,
         )
         data = self.sweep.values
         if self.sweep.is_complex:
