@@ -36,20 +36,22 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from fitkit.errors import FitkitError, InputError
+from fitkit.result import QUANTITIES
 from fitkit.tomlfile import read_toml
 from fitkit.units import format_quantity, parse_quantity
 
-#: spec name -> (CircuitFit quantity name, unit)
-SPEC_NAMES = {
-    "R": ("R", "ohm"),
-    "L": ("L", "H"),
-    "C": ("C", "F"),
-    "f0": ("f0_hz", "Hz"),
-    "Q": ("Q", ""),
-    "Q_loaded": ("Q_loaded", ""),
-    "bandwidth": ("bandwidth_hz", "Hz"),
-    "loaded_bandwidth": ("loaded_bandwidth_hz", "Hz"),
+_QUANTITY_OF = {
+    "R": "R",
+    "L": "L",
+    "C": "C",
+    "f0": "f0_hz",
+    "Q": "Q",
+    "Q_loaded": "Q_loaded",
+    "bandwidth": "bandwidth_hz",
+    "loaded_bandwidth": "loaded_bandwidth_hz",
 }
+#: spec name -> (CircuitFit quantity name, unit)
+SPEC_NAMES = {name: (q, QUANTITIES[q][0]) for name, q in _QUANTITY_OF.items()}
 RULES = ("simple", "guarded")
 PASS, FAIL, UNDECIDED = "pass", "fail", "undecided"
 NOT_DETERMINED = "undecided (not determined)"
