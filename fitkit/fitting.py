@@ -581,6 +581,17 @@ class _Problem:
                 f"R = {r.text()} is barely resolved above zero: the fixture resistance "
                 f"({ext}) dominates the loop"
             )
+        at_limit = [
+            name
+            for name in _varied(result.params)
+            if name in self.bounds
+            and min(abs(result.params[name].value - edge) for edge in self.bounds[name]) < 1e-6
+        ]
+        if at_limit:
+            out.append(
+                "the fit ended at a limit of its search range (" + ", ".join(at_limit) + "): "
+                "the values are not to be trusted; check the setup and the circuit model"
+            )
         if start.mirror_scale_ohm is not None and not self.sweep.is_complex:
             other = start.mirror_scale_ohm - self.setup.external_ohm
             out.append(

@@ -151,3 +151,13 @@ def test_wrong_model_shows_structured_residuals():
     bent = z_series * (1 + 0.05 * np.sin(w / w[0] * 3)) * np.exp(1e-3j * rng.normal(size=f.size))
     fit = fit_sweep(Sweep(f, bent, "impedance"), SETUPS["impedance"])
     assert any("structured" in w for w in fit.stats.warnings)
+
+
+def test_a_fit_ending_at_its_search_limit_says_so():
+    """A coil model asked to explain a plain series sweep pushes its self-resonance to the
+    top of its search range; the fit must say its values are not to be trusted."""
+    setup = SETUPS["series-through"]
+    sweep = make_sweep(setup, seed=2)
+    fit = fit_sweep(sweep, setup, topology="coil")
+    assert fit["f_self_hz"].value > 100 * sweep.freq_hz[-1]
+    assert any("limit of its search range (ln_f_self_hz)" in w for w in fit.stats.warnings)
