@@ -3,10 +3,11 @@
 A small TOML file (``fitkit-setup.toml`` in the sweep's folder is found by itself)::
 
     [bench]
-    arrangement = "divider"          # divider, impedance, reflection,
+    arrangement = "divider"          # divider, across, impedance, reflection,
                                      # series-through, shunt-through
     source_resistance = "50"         # ohm, SI prefixes allowed: "4k7", "50 ohm"
-    sense_resistor = "47"
+    sense_resistor = "47"            # divider: in series, the scope across it
+    feed_resistor = "10k"            # across: feeds the circuit, the scope across it
     probe_capacitance = "15p"
     ratio_reference = "terminal"     # or "open-circuit" (source resistance in the loop)
     generator_amplitude = "2 Vpp"    # for absolute-volt sweeps; Vpp, Vrms or Vpk
@@ -41,6 +42,7 @@ _FIELDS = {
     "arrangement": ("bench", None),
     "source_resistance": ("source_ohm", "ohm"),
     "sense_resistor": ("sense_ohm", "ohm"),
+    "feed_resistor": ("feed_ohm", "ohm"),
     "probe_capacitance": ("probe_f", "F"),
     "ratio_reference": ("reference", None),
     "generator_amplitude": ("amplitude_vrms", "amplitude"),

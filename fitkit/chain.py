@@ -170,9 +170,11 @@ def chain_from_setup(setup: dict) -> Chain:
     """
     s = Setup(**setup)
     origin = "the bench setup"
+    source = s.source_ohm if s.source_in_loop else 0.0
     if s.bench == "divider":
-        source = s.source_ohm if s.source_in_loop else 0.0
         return Chain("series", source, s.sense_ohm, s.probe_f, origin)
+    if s.bench == "across":  # the circuit across the line behind the feed, the probe as load
+        return Chain("shunt", source + s.feed_ohm, None, s.probe_f, origin)
     if s.bench in ("series-through", "shunt-through"):
         return Chain(s.bench.split("-")[0], s.z0_ohm, s.z0_ohm, 0.0, origin)
     raise PredictionError(

@@ -87,7 +87,7 @@ def estimate_start(
         f0, q, method = _from_magnitude(f, np.abs(sweep.values), setup, topology)
     extras = _extras_guess(f, np.abs(sweep.values), setup, topology, f0)
     search = _Search(sweep, setup, topology, extras, skin_above_hz)
-    if topology.name == "tank" and setup.bench != "impedance":
+    if setup.bench == "across" or (topology.name == "tank" and setup.bench != "impedance"):
         q, method = search.best_q(f0, q), method + ", Q tried on a grid"
     if setup.is_calibrated:
         scale, mirror = search.scale(f0, q)
@@ -147,6 +147,10 @@ def loop_power_transform(setup: Setup, magnitude: np.ndarray) -> np.ndarray:
 
 
 def _from_magnitude(f, magnitude, setup: Setup, topology: Topology) -> tuple:
+    if setup.bench == "across":
+        # the magnitude across the circuit dips at a series resonance and peaks at a tank's
+        t = 1.0 / magnitude**2 if topology.name == "tank" else magnitude**2
+        return _from_extremum(f, t)
     t = loop_power_transform(setup, magnitude)
     if topology.name == "tank":
         # a tank's loop power peaks at resonance; on an impedance analyser 1/|Z|^2 is the

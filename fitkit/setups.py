@@ -9,6 +9,9 @@ The trade's relations:
 - divider: ``H = Zsense / (Rsource + Z + Zsense)``, ``Zsense = Rs || 1/(j w Cprobe)``;
   against the generator's output terminal the source resistance drops out:
   ``H = Zsense / (Z + Zsense)``;
+- across: the voltage across the circuit, fed through a resistor Rfeed, with the probe
+  across the circuit: ``H = Zp / (Rfeed + Zp)``, ``Zp = Z || 1/(j w Cprobe)`` (plus the
+  source resistance when the ratio is against the open-circuit EMF);
 - impedance: the analyser reads Z itself;
 - reflection: ``S11 = (Z - Z0) / (Z + Z0)``;
 - series-through: ``S21 = 2 Z0 / (2 Z0 + Z)``;
@@ -25,7 +28,9 @@ import numpy as np
 from fitkit.errors import SetupError
 from fitkit.units import format_quantity
 
-BENCHES = ("divider", "impedance", "reflection", "series-through", "shunt-through")
+BENCHES = ("divider", "across", "impedance", "reflection", "series-through", "shunt-through")
+#: benches that read a voltage ratio (or volts) from a generator, with its references
+GENERATOR_BENCHES = ("divider", "across")
 REFERENCES = ("terminal", "open-circuit")
 DISPLAYS = ("matched", "open-circuit")
 
@@ -38,8 +43,8 @@ DEFAULT_BENCH = {
     "s21": "series-through",
 }
 _BENCHES_FOR_KIND = {
-    "ratio": ("divider",),
-    "volts": ("divider",),
+    "ratio": GENERATOR_BENCHES,
+    "volts": GENERATOR_BENCHES,
     "impedance": ("impedance",),
     "s11": ("reflection",),
     "s21": ("series-through", "shunt-through"),
@@ -60,6 +65,8 @@ class Setup:
         The generator's source resistance.
     sense_ohm : float or None
         The sense resistor of a divider.
+    feed_ohm : float or None
+        The resistor feeding the circuit on an ``across`` bench.
     probe_f : float
         Probe or input capacitance across the sense resistor.
     reference : str
@@ -80,6 +87,7 @@ class Setup:
     kind: str
     source_ohm: float = 50.0
     sense_ohm: float | None = None
+    feed_ohm: float | None = None
     probe_f: float = 0.0
     reference: str = "terminal"
     z0_ohm: float = 50.0
@@ -116,9 +124,14 @@ class Setup:
                     "a divider sweep needs the sense resistor's value",
                     remedy="give it, e.g. --sense-r 47 (or sense_resistor in the setup file)",
                 )
-        if self.relative and self.bench != "divider":
+        if self.bench == "across" and (self.feed_ohm is None or not self.feed_ohm > 0):
             raise SetupError(
-                f"only a divider sweep can be relative; a {self.bench} sweep has its own scale",
+                "an across sweep needs the value of the resistor feeding the circuit",
+                remedy="give it, e.g. --feed-r 10k (or feed_resistor in the setup file)",
+            )
+        if self.relative and self.bench not in GENERATOR_BENCHES:
+            raise SetupError(
+                f"only a generator sweep can be relative; a {self.bench} sweep has its own scale",
                 remedy="drop the relative flag",
             )
 
@@ -142,6 +155,10 @@ class Setup:
             scale = self.emf_vrms if (self.kind == "volts" and self.emf_vrms is not None) else 1.0
             rsrc = self.source_ohm if self.source_in_loop else 0.0
             return 0.0 * one, scale * zs, one, rsrc + zs
+        if self.bench == "across":
+            scale = self.emf_vrms if (self.kind == "volts" and self.emf_vrms is not None) else 1.0
+            rfeed = self.feed_ohm + (self.source_ohm if self.source_in_loop else 0.0)
+            return scale * one, 0.0 * one, 1.0 + 1j * w * self.probe_f * rfeed, rfeed * one
         if self.bench == "impedance":
             return one, 0.0 * one, 0.0 * one, one
         z0 = self.z0_ohm
@@ -175,8 +192,11 @@ class Setup:
 
         The loaded Q is ``w0 L / (R + external_ohm)``.
         """
+        source = self.source_ohm if self.source_in_loop else 0.0
         if self.bench == "divider":
-            return (self.source_ohm if self.source_in_loop else 0.0) + self.sense_ohm
+            return source + self.sense_ohm
+        if self.bench == "across":
+            return source + self.feed_ohm
         _, _, c, d = (float(np.real(x[0])) for x in self.coefficients(np.array([1.0])))
         return 0.0 if c == 0 else d / c
 
@@ -189,8 +209,11 @@ class Setup:
 
     def describe(self) -> str:
         """One line saying what was assumed."""
-        if self.bench == "divider":
-            parts = [f"divider, sense resistor {format_quantity(self.sense_ohm, 'ohm')}"]
+        if self.bench in GENERATOR_BENCHES:
+            if self.bench == "divider":
+                parts = [f"divider, sense resistor {format_quantity(self.sense_ohm, 'ohm')}"]
+            else:
+                parts = [f"across the circuit, fed through {format_quantity(self.feed_ohm, 'ohm')}"]
             if self.source_in_loop:
                 parts.append(f"source {format_quantity(self.source_ohm, 'ohm')} in the loop")
             else:

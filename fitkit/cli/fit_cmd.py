@@ -34,6 +34,7 @@ def bench_options(func):
             help="Generator source resistance, ohm [default: 50].",
         ),
         click.option("--sense-r", help="Sense resistor of a divider, ohm (e.g. 47, 4k7)."),
+        click.option("--feed-r", help="Resistor feeding the circuit on an across bench, ohm."),
         click.option(
             "--probe-c", help="Probe/input capacitance across the sense resistor (e.g. 15p)."
         ),
@@ -86,6 +87,7 @@ def overrides_from_options(opts: dict) -> dict:
         "bench": opts.get("bench"),
         "source_ohm": opts.get("source_r"),
         "sense_ohm": opts.get("sense_r"),
+        "feed_ohm": opts.get("feed_r"),
         "probe_f": opts.get("probe_c"),
         "reference": opts.get("ratio_ref"),
         "amplitude_vrms": opts.get("amplitude"),

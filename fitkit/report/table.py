@@ -59,7 +59,7 @@ def fit_table(fit: CircuitFit) -> str:
     for key, value in fit.sweep.get("metadata", {}).items():
         if key in _FORMAT_FACTS:
             continue
-        if key == "reference_ohm" and fit.setup["bench"] not in ("divider", "impedance"):
+        if key == "reference_ohm" and fit.setup["bench"] not in ("divider", "across", "impedance"):
             lines.append(f"  the file states its reference impedance, {value} ohm (used)")
             continue
         lines.append(f"  the file states {key} = {value} (shown for you to confirm; not used)")
