@@ -27,6 +27,7 @@ from uncertainties import correlated_values, covariance_matrix, ufloat, umath
 
 from fitkit.errors import FitError, SetupError
 from fitkit.estimate import Start, estimate_start, predicted
+from fitkit.fit_warnings import fit_warnings
 from fitkit.noise import DB_PER_NEPER, Noise, parse_noise
 from fitkit.result import COMPONENTS, OPTIONAL, QUANTITIES, CircuitFit, FitStats, Quantity
 from fitkit.setups import Setup
@@ -36,7 +37,6 @@ from fitkit.units import format_quantity
 
 _OUTLIER_LIMIT = 6.0  # robust standard deviations
 _MAX_OUTLIER_SHARE = 0.05
-_MIN_POINTS_IN_BAND = 5
 _SINGULAR = 1e-6  # relative singular value below which a direction is not determined
 _BIC_EVIDENCE = 10.0
 _UNIT_NOISE = 1.0
@@ -488,7 +488,7 @@ class _Problem:
             noise=noise.describe(self.sweep.kind),
             start=first.start.method,
             outliers_hz=[float(x) for x in self.f[first.outliers]],
-            warnings=self.warnings(result, redchi, quantities, first.start, noise, used),
+            warnings=fit_warnings(self, result, redchi, quantities, first.start, noise, used),
         )
         determined = [n for n in quantities if quantities[n].determined]
         fit = CircuitFit(
@@ -556,73 +556,6 @@ class _Problem:
             "check the fixture resistances in the setup, or measure with less resistance "
             "in the loop (a smaller sense resistor, an impedance analyser)",
         )
-
-    def warnings(self, result, redchi: float, q: dict, start: Start, noise: Noise, used) -> list:
-        out = []
-        f0, ql = q["f0_hz"].value, q["Q_loaded"].value if q["Q_loaded"].determined else None
-        if ql:
-            half = f0 / (2.0 * ql)
-            inside = int(np.sum(np.abs(self.f[used] - f0) <= half))
-            if inside < _MIN_POINTS_IN_BAND:
-                out.append(
-                    f"only {inside} points lie within the half-power band "
-                    f"({format_quantity(f0 - half, 'Hz')} to {format_quantity(f0 + half, 'Hz')});"
-                    " sweep finer near the resonance"
-                )
-        r = q["R"]
-        ext = format_quantity(self.setup.external_ohm, "ohm")
-        if r.determined and r.value <= 0:
-            out.append(
-                f"R came out at {r.text()}: the fixture resistance in the setup ({ext}) is at "
-                "least the whole loop resistance found; check the sense and source resistance"
-            )
-        elif r.determined and r.value < 2.0 * r.stderr:
-            out.append(
-                f"R = {r.text()} is barely resolved above zero: the fixture resistance "
-                f"({ext}) dominates the loop"
-            )
-        at_limit = [
-            name
-            for name in _varied(result.params)
-            if name in self.bounds
-            and min(abs(result.params[name].value - edge) for edge in self.bounds[name]) < 1e-6
-        ]
-        if at_limit:
-            out.append(
-                "the fit ended at a limit of its search range (" + ", ".join(at_limit) + "): "
-                "the values are not to be trusted; check the setup and the circuit model"
-            )
-        if start.mirror_scale_ohm is not None and not self.sweep.is_complex:
-            other = start.mirror_scale_ohm - self.setup.external_ohm
-            out.append(
-                f"a magnitude-only {self.sweep.kind} sweep fits R = "
-                f"{format_quantity(other, 'ohm')} about as well as the value reported; "
-                "measure the phase too to tell them apart"
-            )
-        z = self.residual(result.params, used, noise)[: used.size]
-        if used.size >= 20:
-            lag1 = float(np.corrcoef(z[:-1], z[1:])[0, 1])
-            if lag1 > 0.5:
-                hint = " (try --model auto: a tank or a coil with self-capacitance)"
-                out.append(
-                    f"the residuals are structured (lag-1 correlation {lag1:.2f}): the "
-                    f"{self.topology.label} model does not describe this sweep well and the "
-                    "uncertainties are too small; look at the plot"
-                    + (hint if self.topology.name == "series" else "")
-                )
-        if noise.stated:
-            dof = max(result.nfree, 1)
-            if redchi > 1.0 + 4.0 * math.sqrt(2.0 / dof):
-                out.append(
-                    f"reduced chi-square {redchi:.2f} with the stated noise: the noise "
-                    "is larger than stated or the model does not fit"
-                )
-            elif redchi < 1.0 - 4.0 * math.sqrt(2.0 / dof):
-                out.append(
-                    f"reduced chi-square {redchi:.2f}: the stated noise is larger than "
-                    "the scatter seen; the uncertainties are pessimistic"
-                )
-        return out
 
     def sweep_info(self) -> dict:
         info = {
