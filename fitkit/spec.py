@@ -49,6 +49,9 @@ _QUANTITY_OF = {
     "Q_loaded": "Q_loaded",
     "bandwidth": "bandwidth_hz",
     "loaded_bandwidth": "loaded_bandwidth_hz",
+    "R_dynamic": "R_dynamic",  # a tank's
+    "C_self": "C_self",  # a coil's self-capacitance
+    "f_self": "f_self_hz",  # and its self-resonance
 }
 #: spec name -> (CircuitFit quantity name, unit)
 SPEC_NAMES = {name: (q, QUANTITIES[q][0]) for name, q in _QUANTITY_OF.items()}

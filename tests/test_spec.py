@@ -95,3 +95,13 @@ def test_bad_spec_names_the_file_and_the_fix(tmp_path, text, words):
         load_spec(path)
     assert words in str(err.value)
     assert "bad-spec.toml" in str(err.value)
+
+
+def test_tank_and_coil_values_can_be_specified(tmp_path):
+    spec_file = tmp_path / "spec.toml"
+    spec_file.write_text('[R_dynamic]\nmin = "50k"\n\n[f_self]\nmin = "20meg"\n')
+    spec = load_spec(spec_file)
+    verdicts = judge({"R_dynamic": (58.5e3, 40.0)}, spec)
+    assert verdicts.values["R_dynamic"].word == "pass"
+    # a unit fitted with a model that has no self-resonance: not determined, so undecided
+    assert verdicts.values["f_self"].text().startswith("undecided")
