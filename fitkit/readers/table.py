@@ -227,8 +227,7 @@ def _parse_rows(path: Path, dialect: Dialect, plan: Plan, notes: list):
         names=list(range(dialect.fields)),
         skiprows=dialect.first_data_line - 1,
         skip_blank_lines=False,
-        skipinitialspace=True,
-        engine="c",
+        engine="c",  # its float parser skips the spaces around a number itself
     )
     encoding = dialect.encoding
     for attempt in ("fast", "retry"):
@@ -275,7 +274,7 @@ def _ragged(exc: Exception, path: Path, dialect: Dialect) -> InputError:
 
 def _parse_rows_slowly(path, dialect, plan, wanted, kwargs, notes):
     """Rows with text in a number column: skip repeated headers and comments, else refuse."""
-    frame = pd.read_csv(path, encoding=dialect.encoding, dtype=str, **kwargs)
+    frame = pd.read_csv(path, encoding=dialect.encoding, dtype=str, skipinitialspace=True, **kwargs)
     raw = _LINE_BREAK.split(read_all(path, dialect.encoding))
     first = dialect.first_data_line
     header_text = raw[dialect.header_line - 1].strip() if dialect.header_line else None
