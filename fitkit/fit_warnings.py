@@ -72,6 +72,9 @@ def fit_warnings(problem, result, redchi: float, q: dict, start, noise, used) ->
                 "uncertainties are too small; look at the plot"
                 + (hint if problem.topology.name == "series" else "")
             )
+    domain_hint = _noise_domain_hint(problem, result, noise, used)
+    if domain_hint:
+        out.append(domain_hint)
     if noise.stated:
         dof = max(result.nfree, 1)
         if redchi > 1.0 + 4.0 * math.sqrt(2.0 / dof):
@@ -85,3 +88,33 @@ def fit_warnings(problem, result, redchi: float, q: dict, start, noise, used) ->
                 "the scatter seen; the uncertainties are pessimistic"
             )
     return out
+
+
+def _noise_domain_hint(problem, result, noise, used) -> str:
+    """Say so when the scatter follows the size of the reading and the weighting does not.
+
+    Additive weighting assumes the same scatter on every point; readings whose error is a
+    share of the reading (dB meters, impedance analysers) scatter in proportion to their
+    size, and then the points near the peak get too little say and the error bars are
+    wrong. Judged by the rank correlation of the residual size with the reading's size.
+    """
+    if noise.domain != "additive" or used.size < 30:
+        return ""
+    a, b = problem.raw_residual(result.params.valuesdict(), used, "additive")
+    size = np.abs(a) if b is None else np.hypot(a, b)
+    reading = np.abs(problem.data[used])
+    rho = _rank_correlation(size, reading)
+    if rho < 0.5:
+        return ""
+    return (
+        f"the scatter grows with the reading (rank correlation {rho:.2f}): the instrument's "
+        "error looks like a share of the reading; fit again with a relative noise, e.g. "
+        "--noise 1% or --noise 0.05dB,0.3deg"
+    )
+
+
+def _rank_correlation(x: np.ndarray, y: np.ndarray) -> float:
+    """Spearman's rank correlation (ties broken by position; enough for a warning)."""
+    rx = np.argsort(np.argsort(x))
+    ry = np.argsort(np.argsort(y))
+    return float(np.corrcoef(rx, ry)[0, 1])

@@ -161,3 +161,17 @@ def test_a_fit_ending_at_its_search_limit_says_so():
     fit = fit_sweep(sweep, setup, topology="coil")
     assert fit["f_self_hz"].value > 100 * sweep.freq_hz[-1]
     assert any("limit of its search range (ln_f_self_hz)" in w for w in fit.stats.warnings)
+
+
+def test_scatter_that_grows_with_the_reading_is_pointed_out():
+    """Readings with a relative error fitted with even weights: the fit says so."""
+    setup = SETUPS["divider-terminal"]
+    relative = make_sweep(setup, seed=3, noise=0.01, relative_noise=True)
+    fit = fit_sweep(relative, setup)
+    assert any("scatter grows with the reading" in w for w in fit.stats.warnings)
+    even = make_sweep(setup, seed=3, noise=1e-3)
+    assert not any("scatter grows" in w for w in fit_sweep(even, setup).stats.warnings)
+    # with the right weighting the warning goes, and the values come back
+    fixed = fit_sweep(relative, setup, noise="1%")
+    assert not any("scatter grows" in w for w in fixed.stats.warnings)
+    _within(fixed, "L", TRUTH["L"])
