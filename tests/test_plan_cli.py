@@ -11,6 +11,7 @@ from fitkit.cli import main
 from fitkit.noise import Noise
 from fitkit.plan import SweepShape, cramer_rao, resonance
 from fitkit.setups import Setup
+from tests.test_cli_fit import SERIES_LABELS
 
 CIRCUIT = ("--sense-r", "50", "--r", "5", "--l", "100u", "--c", "1n")
 
@@ -26,15 +27,7 @@ def row(output: str, label: str) -> str:
 def test_table_shows_every_value_with_its_bound():
     out = run(*CIRCUIT, "--noise", "1e-3")
     assert out.exit_code == 0, out.output
-    for label in (
-        "R (circuit loss)",
-        "L ",
-        "C ",
-        "f0 (resonance)",
-        "Q (circuit, unloaded)",
-        "Q (loaded",
-        "bandwidth -3 dB (circuit)",
-    ):
+    for label in SERIES_LABELS:
         assert label in out.output
     assert "100 uH" in row(out.output, "L ")
     # the printed relative bound of L is the library's
