@@ -116,6 +116,7 @@ def _choose(sweep, setup, known, noise_model, keep_outliers, skin) -> CircuitFit
     trials, failed = {}, {}
     for name, topology in TOPOLOGIES.items():
         problem = _Problem(sweep, setup, topology, known, skin)
+        problem.forced = False  # the model is being chosen, not imposed
         try:
             trials[name] = (problem, problem.first_pass(noise_model, keep_outliers))
         except FitError as exc:
@@ -199,6 +200,7 @@ class _Problem:
     def __init__(self, sweep: Sweep, setup: Setup, topology: Topology, known: dict, skin):
         self.sweep, self.setup, self.topology = sweep, setup, topology
         self.known, self.skin = known, skin
+        self.forced = True  # the user named the model (not chosen among candidates)
         self.f = sweep.freq_hz
         self.data = sweep.values
         self.coefficients = setup.coefficients(self.f)
@@ -454,8 +456,12 @@ class _Problem:
             raise FitError(
                 f"{what} lies at {format_quantity(f0, 'Hz')}, outside the sweep "
                 f"({format_quantity(self.f[0], 'Hz')} to {format_quantity(self.f[-1], 'Hz')})",
-                remedy="sweep again across the resonance (a few bandwidths each side); if "
-                "the sweep does cover it, the circuit model may be wrong: try --model auto",
+                remedy="sweep again across the resonance (a few bandwidths each side)"
+                + (
+                    "; if the sweep does cover it, the circuit model may be wrong: try --model auto"
+                    if self.forced
+                    else "; check the setup values (a wrong bench makes any model miss)"
+                ),
                 path=self.sweep.source,
             )
 
