@@ -81,8 +81,7 @@ def estimate_start(
         if start is not None and f[0] <= start.f0_hz <= f[-1]:
             return start
     if from_extremum:
-        t = loop_power_transform(setup, np.abs(sweep.values))
-        f0, q, method = _from_extremum(f, 1.0 / t if topology.name == "tank" else t)
+        f0, q, method = _from_extremum(f, _dip_at_resonance(setup, np.abs(sweep.values), topology))
     else:
         f0, q, method = _from_magnitude(f, np.abs(sweep.values), setup, topology)
     extras = _extras_guess(f, np.abs(sweep.values), setup, topology, f0)
@@ -146,18 +145,25 @@ def loop_power_transform(setup: Setup, magnitude: np.ndarray) -> np.ndarray:
         return 1.0 / (1.0 - magnitude**2)
 
 
-def _from_magnitude(f, magnitude, setup: Setup, topology: Topology) -> tuple:
+def _dip_at_resonance(setup: Setup, magnitude: np.ndarray, topology: Topology) -> np.ndarray:
+    """A curve of the reading with its minimum at the resonance, for every bench.
+
+    The loop power dips at a series resonance and peaks at a tank's; across the circuit
+    the reading itself dips at a series resonance and peaks at a tank's.
+    """
     if setup.bench == "across":
-        # the magnitude across the circuit dips at a series resonance and peaks at a tank's
-        t = 1.0 / magnitude**2 if topology.name == "tank" else magnitude**2
+        t = magnitude**2
+    else:
+        t = loop_power_transform(setup, magnitude)
+    return 1.0 / t if topology.name == "tank" else t
+
+
+def _from_magnitude(f, magnitude, setup: Setup, topology: Topology) -> tuple:
+    t = _dip_at_resonance(setup, magnitude, topology)
+    if setup.bench == "across" or (topology.name == "tank" and setup.bench != "impedance"):
+        # no exact linearisation here; on an impedance analyser a tank's 1/|Z|^2 is its
+        # |Y|^2, the same quadratic form as a series circuit's |Z|^2
         return _from_extremum(f, t)
-    t = loop_power_transform(setup, magnitude)
-    if topology.name == "tank":
-        # a tank's loop power peaks at resonance; on an impedance analyser 1/|Z|^2 is the
-        # tank's |Y|^2, the same quadratic form as a series circuit's |Z|^2
-        t = 1.0 / t
-        if setup.bench != "impedance":
-            return _from_extremum(f, t)
     ok = np.isfinite(t) & (t > 0)
     if ok.sum() >= 3:
         wc = TWO_PI * np.sqrt(f[0] * f[-1])
@@ -200,7 +206,7 @@ def _extras_guess(f, magnitude, setup, topology: Topology, f0, z=None) -> dict:
         cross = np.flatnonzero(above[:-1] & (x[:-1] > 0) & (x[1:] <= 0))
         if cross.size:
             return {"f_self_hz": float(f[cross[0]])}
-    t = loop_power_transform(setup, magnitude)
+    t = _dip_at_resonance(setup, magnitude, topology)  # peaks at the coil's own resonance
     if above.sum() > 3:
         i = int(np.nanargmax(np.where(above, t, -np.inf)))
         if 0 < i < f.size - 1:
