@@ -21,7 +21,7 @@ The trade's relations:
 from __future__ import annotations
 
 import math
-from dataclasses import asdict, dataclass, replace
+from dataclasses import asdict, dataclass
 
 import numpy as np
 
@@ -237,9 +237,6 @@ class Setup:
 
     def to_dict(self) -> dict:
         return asdict(self)
-
-    def with_kind(self, kind: str) -> Setup:
-        return replace(self, kind=kind)
 
 
 def _check_choice(what: str, value: str, allowed: tuple) -> None:
