@@ -89,6 +89,7 @@ def test_single_fit_report_shows_values_verdicts_plot_and_checksum(tmp_path):
 
     assert hashlib.sha256((KITS / "kit-04.csv").read_bytes()).hexdigest() in seen
     assert "kits/fitkit-setup.toml" in seen and "sense resistor 22 ohm" in seen
+    assert "circuit model series R-L-C (" in " ".join(seen.split())  # and why it was chosen
     assert images(dom) == (1, 1)
 
 

@@ -127,10 +127,18 @@ def _facts(fit: CircuitFit, setup_file) -> str:
         ("sha256", f"<code>{_e(fit.sweep.get('sha256', 'not recorded'))}</code>"),
         ("setup file", _e(setup_file or "none (defaults and options)")),
         ("bench", _e(Setup(**fit.setup).describe())),
+        ("circuit model", _e(_model_text(fit))),
         ("noise", _e(fit.stats.noise)),
         ("fitkit version", _e(__version__)),
     ]
     return _table(["about", ""], [[_e(k), v] for k, v in facts])
+
+
+def _model_text(fit: CircuitFit) -> str:
+    from fitkit.topologies import TOPOLOGIES
+
+    label = TOPOLOGIES[fit.topology].label
+    return f"{label} ({fit.choice})" if fit.choice else label
 
 
 def _value_cell(row: dict, name: str) -> str:
