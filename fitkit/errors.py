@@ -68,3 +68,16 @@ class FitError(FitkitError):
 
 class PredictionError(FitkitError):
     """A prediction that asks for something no circuit of this kind can do."""
+
+
+def refuse_overwrite(path, what: str, force: bool) -> None:
+    """Raise an InputError when ``path`` exists and ``force`` was not given.
+
+    Nothing fitkit writes replaces an existing file unless the user says so.
+    """
+    if not force and Path(path).exists():
+        raise InputError(
+            f"the {what} file exists already",
+            remedy="choose another name or add --force to replace it",
+            path=path,
+        )

@@ -196,3 +196,13 @@ def assert_complex_close(
 
 def _at(freq_hz, i: int) -> tuple:
     return () if freq_hz is None else (float(np.asarray(freq_hz)[i]),)
+
+
+def spice_rejection_db(netlist_text: str, node: str, wanted_hz: float, tmp_path) -> tuple:
+    """ngspice's rejection at ``node`` relative to the grid point nearest ``wanted_hz``.
+
+    Returns ``(freq_hz, wanted grid frequency, rejection_db array)``.
+    """
+    freq, v = run_ac(netlist_text, [node], tmp_path)
+    i = int(np.argmin(np.abs(freq - wanted_hz)))
+    return freq, freq[i], 20.0 * np.log10(np.abs(v[node][i]) / np.abs(v[node]))

@@ -10,7 +10,7 @@ import pytest
 from fitkit.chain import Chain, rejection_db, response_db
 from fitkit.errors import PredictionError
 from fitkit.predict import Carrier, loaded_q, loss_limit, predict, tuning_c
-from tests.spice import require_ngspice, run_ac, spice_value
+from tests.spice import require_ngspice, spice_rejection_db, spice_value
 
 L_H, R_OHM = 330e-6, 12.0
 WANTED_HZ = 455e3  # a common AM intermediate frequency (common practice)
@@ -34,9 +34,7 @@ def test_tank_across_the_line_matches_ngspice(tmp_path):
             ".ac lin 11 405e3 505e3",
         ]
     )
-    freq, v = run_ac(netlist, ["out"], tmp_path)
-    wanted = freq[np.argmin(np.abs(freq - WANTED_HZ))]
-    want_db = 20.0 * np.log10(np.abs(v["out"][freq == wanted][0]) / np.abs(v["out"]))
+    freq, wanted, want_db = spice_rejection_db(netlist, "out", WANTED_HZ, tmp_path)
     values = {"R": R_OHM, "L": L_H, "C": c_f}
     got_db = np.array([rejection_db(f, wanted, values, CHAIN) for f in freq])
     assert np.abs(got_db - want_db).max() < 0.05

@@ -32,3 +32,11 @@ def reports_errors(func):
             sys.exit(exc.exit_code)
 
     return wrapper
+
+
+def plot_options(func):
+    """``--plot FILE`` and ``--force`` (to replace an existing plot)."""
+    func = click.option("--force", is_flag=True, help="Replace an existing plot file.")(func)
+    return click.option(
+        "--plot", "plot_path", type=click.Path(dir_okay=False), help="Write a plot (PNG)."
+    )(func)

@@ -2,16 +2,14 @@
 
 from __future__ import annotations
 
-from pathlib import Path
-
 import click
 
 from fitkit.bench_file import (
     DEFAULT_NAME,
 )
-from fitkit.cli.base import main, reports_errors
+from fitkit.cli.base import main, plot_options, reports_errors
 from fitkit.cli.read_options import columns_from_options, read_options
-from fitkit.errors import InputError
+from fitkit.errors import refuse_overwrite
 from fitkit.report.table import fit_table
 from fitkit.setups import BENCHES, DISPLAYS, REFERENCES
 from fitkit.topologies import TOPOLOGIES
@@ -113,8 +111,7 @@ def overrides_from_options(opts: dict) -> dict:
 )
 @click.option("--keep-outliers", is_flag=True, help="Do not refit without outlying points.")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of a table.")
-@click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="Write a plot (PNG).")
-@click.option("--force", is_flag=True, help="Replace an existing plot file.")
+@plot_options
 @reports_errors
 def fit_command(
     sweep_file, noise, model, skin_above, keep_outliers, as_json, plot_path, force, **opts
@@ -127,12 +124,8 @@ def fit_command(
     Every value comes with its standard uncertainty; values the sweep cannot determine
     are named, with what would determine them. Exit status 2 on bad input or a failed fit.
     """
-    if plot_path and Path(plot_path).exists() and not force:
-        raise InputError(
-            "the plot file exists already",
-            remedy="choose another name or add --force to replace it",
-            path=plot_path,
-        )
+    if plot_path:
+        refuse_overwrite(plot_path, "plot", force)
     fit, bench_path = fit_file(
         sweep_file,
         setup_path=opts.pop("setup_file"),

@@ -11,9 +11,9 @@ from uncertainties import ufloat
 
 from fitkit.bench_file import parse_known
 from fitkit.chain import CIRCUITS, PLACEMENTS, Chain, chain_from_setup, response_db
-from fitkit.cli.base import main, reports_errors
+from fitkit.cli.base import main, plot_options, reports_errors
 from fitkit.cli.fit_cmd import bench_options, overrides_from_options
-from fitkit.errors import InputError, PredictionError
+from fitkit.errors import InputError, PredictionError, refuse_overwrite
 from fitkit.predict import Carrier, Prediction, predict, value_and_error, values_from_fit
 from fitkit.rasters import RASTERS, get_raster
 from fitkit.result import COMPONENTS, load_fit
@@ -84,8 +84,7 @@ from fitkit.workflow import fit_file
 @click.option("--chain-load-r", help="In service: load resistance, ohm (e.g. 2k2).")
 @click.option("--chain-load-c", help="In service: capacitance across the load (e.g. 20p).")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of a table.")
-@click.option("--plot", "plot_path", type=click.Path(dir_okay=False), help="Write a plot (PNG).")
-@click.option("--force", is_flag=True, help="Replace an existing plot file.")
+@plot_options
 @reports_errors
 def predict_command(sweep_file, saved_fit, typed, as_json, plot_path, force, **opts):
     """Predict from a fitted circuit: C for a wanted carrier, rejection of each unwanted
@@ -94,12 +93,8 @@ def predict_command(sweep_file, saved_fit, typed, as_json, plot_path, force, **o
     Start from SWEEP_FILE (fitted with the same bench options as 'fitkit fit'), from
     --saved-fit, or from --value R=.. L=.. C=... Exit status 2 on bad input.
     """
-    if plot_path and Path(plot_path).exists() and not force:
-        raise InputError(
-            "the plot file exists already",
-            remedy="choose another name or add --force to replace it",
-            path=plot_path,
-        )
+    if plot_path:
+        refuse_overwrite(plot_path, "plot", force)
     values, bench_chain, origin, circuit = _start(sweep_file, saved_fit, typed, opts)
     chain = _chain(opts) or bench_chain
     if chain is None:

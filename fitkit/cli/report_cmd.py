@@ -11,7 +11,7 @@ from fitkit.batch import RESULTS_JSON, fit_with
 from fitkit.cli.base import main, reports_errors
 from fitkit.cli.batch_cmd import fit_settings
 from fitkit.cli.fit_cmd import bench_options
-from fitkit.errors import InputError
+from fitkit.errors import InputError, refuse_overwrite
 from fitkit.report.html import batch_plots, batch_report, fit_report, write_report
 from fitkit.result import load_fit
 from fitkit.spec import load_spec
@@ -34,12 +34,7 @@ def report_command(source, out_file, spec_file, noise, force, **opts):
     the setup, the fitkit version and the input checksums. A batch folder (made by
     'fitkit batch --out DIR') keeps its own verdicts; its units are refitted to draw plots.
     """
-    if Path(out_file).exists() and not force:
-        raise InputError(
-            "the report file exists already",
-            remedy="choose another name or add --force to replace it",
-            path=out_file,
-        )
+    refuse_overwrite(out_file, "report", force)
     src = Path(source)
     if src.is_dir():
         page = _batch_page(src)

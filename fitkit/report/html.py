@@ -13,7 +13,7 @@ import tempfile
 from pathlib import Path
 
 from fitkit import __version__
-from fitkit.errors import InputError
+from fitkit.errors import refuse_overwrite
 from fitkit.result import QUANTITIES, CircuitFit
 from fitkit.spec import Spec, judge
 from fitkit.units import format_quantity
@@ -244,12 +244,7 @@ def write_report(path: str | Path, page: str, *, force: bool = False) -> Path:
         When the file exists and ``force`` is not set.
     """
     out = Path(path)
-    if out.exists() and not force:
-        raise InputError(
-            "the report file exists already",
-            remedy="choose another name or add --force to replace it",
-            path=out,
-        )
+    refuse_overwrite(out, "report", force)
     out.write_text(page, encoding="utf-8")
     return out
 
