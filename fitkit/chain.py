@@ -26,6 +26,7 @@ import numpy as np
 from uncertainties import umath
 
 from fitkit.errors import PredictionError
+from fitkit.result import nominal
 from fitkit.setups import Setup
 from fitkit.units import format_quantity
 
@@ -232,8 +233,3 @@ def response_db(freq_hz: np.ndarray, wanted_hz: float, values: dict, chain: Chai
     f = np.asarray(freq_hz, dtype=np.float64)
     ratio = denominator_abs2(wanted_hz, plain, chain) / denominator_abs2(f, plain, chain)
     return 10.0 * np.log10(ratio)
-
-
-def nominal(x) -> float:
-    """The value of a float or an ``uncertainties`` number."""
-    return float(getattr(x, "nominal_value", x))

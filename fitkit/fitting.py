@@ -29,7 +29,16 @@ from fitkit.errors import FitError, SetupError
 from fitkit.estimate import Start, estimate_start, predicted
 from fitkit.fit_warnings import fit_warnings
 from fitkit.noise import DB_PER_NEPER, Noise, parse_noise
-from fitkit.result import COMPONENTS, OPTIONAL, QUANTITIES, CircuitFit, FitStats, Quantity
+from fitkit.result import (
+    COMPONENTS,
+    OPTIONAL,
+    QUANTITIES,
+    CircuitFit,
+    FitStats,
+    Quantity,
+    nominal,
+    std_dev,
+)
 from fitkit.setups import Setup
 from fitkit.sweep import Sweep
 from fitkit.topologies import TOPOLOGIES, Topology, get_topology
@@ -545,7 +554,7 @@ class _Problem:
                 undetermined.append({"name": name, "reason": reason, "remedy": remedy})
                 continue
             kept[name] = u
-            quantities[name] = Quantity(name, float(_value(u)), float(_stderr(u)))
+            quantities[name] = Quantity(name, nominal(u), std_dev(u))
         return quantities, undetermined, kept
 
     def why_undetermined(self, scale_open: bool) -> tuple:
@@ -584,11 +593,3 @@ class _Problem:
 
 def _derivative(u, variable) -> float:
     return getattr(u, "derivatives", {}).get(variable, 0.0)
-
-
-def _value(u) -> float:
-    return getattr(u, "nominal_value", u)
-
-
-def _stderr(u) -> float:
-    return getattr(u, "std_dev", 0.0)

@@ -12,9 +12,9 @@ from dataclasses import dataclass, field
 from scipy.optimize import brentq
 from uncertainties import UFloat, umath, wrap
 
-from fitkit.chain import CIRCUITS, TWO_PI, Chain, Pair, nominal, rejection_db
+from fitkit.chain import CIRCUITS, TWO_PI, Chain, Pair, rejection_db
 from fitkit.errors import PredictionError
-from fitkit.result import COMPONENTS, CircuitFit
+from fitkit.result import COMPONENTS, CircuitFit, nominal, std_dev
 from fitkit.units import format_quantity
 
 
@@ -437,7 +437,7 @@ def value_and_error(x) -> tuple:
     An error below 1e-6 of the value is rounding left over where the error cancels
     (the smallest loaded Q depends on the requirement, not on L and C), so it is 0.
     """
-    value, err = nominal(x), float(getattr(x, "std_dev", 0.0))
+    value, err = nominal(x), std_dev(x)
     return value, (0.0 if err <= 1e-6 * abs(value) else err)
 
 

@@ -34,6 +34,16 @@ OPTIONAL = ("R_dynamic", "C_self", "f_self_hz")
 COMPONENTS = ("R", "L", "C")
 
 
+def nominal(x) -> float:
+    """The value of a float or an ``uncertainties`` number."""
+    return float(getattr(x, "nominal_value", x))
+
+
+def std_dev(x) -> float:
+    """The standard error of an ``uncertainties`` number; 0 for a plain float."""
+    return float(getattr(x, "std_dev", 0.0))
+
+
 @dataclass(frozen=True)
 class Quantity:
     """A reported value: SI value and standard error, or the reason it is not known."""

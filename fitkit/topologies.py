@@ -22,6 +22,7 @@ import numpy as np
 
 from fitkit.circuits import TWO_PI, coil_in_series, series_rlc, tank
 from fitkit.errors import SetupError
+from fitkit.result import nominal
 
 
 class Topology:
@@ -50,7 +51,7 @@ class Topology:
     def derived(self, setup, f0, q, comps: dict) -> dict:
         out = {"f0_hz": f0, "Q_loaded": q, "loaded_bandwidth_hz": f0 / q}
         r = comps["R"]
-        if _nominal(r) > 0:
+        if nominal(r) > 0:
             out["Q"] = TWO_PI * f0 * comps["L"] / r
             out["bandwidth_hz"] = r / (TWO_PI * comps["L"])
         return out
@@ -134,7 +135,3 @@ def loss_factor(freq_hz: np.ndarray, f0_hz: float, skin_above_hz: float | None):
         return 1.0
     growth = np.sqrt(np.maximum(freq_hz, skin_above_hz) / skin_above_hz)
     return growth / np.sqrt(max(f0_hz, skin_above_hz) / skin_above_hz)
-
-
-def _nominal(u) -> float:
-    return getattr(u, "nominal_value", u)
