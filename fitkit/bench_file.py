@@ -152,7 +152,12 @@ def build_setup(sweep: Sweep, file_values: dict | None, overrides: dict) -> Setu
         ref = sweep.metadata.get("reference_ohm")
         if ref is not None:
             fields["z0_ohm"] = float(ref)  # the Touchstone option line states it
-    return Setup(kind=sweep.kind, **fields)
+    try:
+        return Setup(kind=sweep.kind, **fields)
+    except SetupError as exc:
+        if exc.path is None:  # the message is about this sweep's bench: say which sweep
+            raise SetupError(exc.message, remedy=exc.remedy, path=sweep.source) from None
+        raise
 
 
 def known_values(file_known: dict | None, cli_known: tuple) -> dict:

@@ -143,10 +143,14 @@ class Chain:
         where = "in series between" if self.placement == "series" else "across the line between"
         if self.circuit == "tank":
             where = "a tank " + where
-        load = "no load" if self.load_ohm is None else format_quantity(self.load_ohm, "ohm")
-        text = f"{where} source {format_quantity(self.source_ohm, 'ohm')} and load {load}"
+        load = (
+            "no resistive load"
+            if self.load_ohm is None
+            else (f"load {format_quantity(self.load_ohm, 'ohm')}")
+        )
         if self.load_f:
-            text += f" || {format_quantity(self.load_f, 'F')}"
+            load += f" || {format_quantity(self.load_f, 'F')}"
+        text = f"{where} source {format_quantity(self.source_ohm, 'ohm')} and {load}"
         return f"{text} ({self.origin})"
 
     def to_dict(self) -> dict:

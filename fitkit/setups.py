@@ -122,7 +122,9 @@ class Setup:
             if self.sense_ohm is None or not self.sense_ohm > 0:
                 raise SetupError(
                     "a divider sweep needs the sense resistor's value",
-                    remedy="give it, e.g. --sense-r 47 (or sense_resistor in the setup file)",
+                    remedy="give it, e.g. --sense-r 47 (or sense_resistor in the setup file); "
+                    "if the scope read the voltage across the circuit instead, say "
+                    "--bench across --feed-r <the feed resistor>",
                 )
         if self.bench == "across" and (self.feed_ohm is None or not self.feed_ohm > 0):
             raise SetupError(
