@@ -25,7 +25,7 @@ from scipy.optimize import minimize_scalar
 from fitkit.circuits import TWO_PI
 from fitkit.setups import Setup
 from fitkit.sweep import Sweep
-from fitkit.topologies import SERIES, Topology, loss_factor
+from fitkit.topologies import SERIES, Topology
 
 
 @dataclass(frozen=True)
@@ -51,12 +51,12 @@ def predicted(
     topology: Topology = SERIES,
     extras: dict | None = None,
     gain: float = 1.0,
-    skin_above_hz: float | None = None,
     coefficients=None,
 ) -> np.ndarray:
     """What the instrument would read for a circuit with these internal values."""
-    comps = topology.components(setup, f0_hz, q, scale_ohm, extras or {})
-    factor = loss_factor(freq_hz, f0_hz, skin_above_hz)
+    extras = extras or {}
+    comps = topology.components(setup, f0_hz, q, scale_ohm, extras)
+    factor = topology.loss_factor(freq_hz, f0_hz, extras)
     z = topology.impedance(freq_hz, comps, factor)
     return gain * setup.response(z, freq_hz, coefficients)
 
@@ -65,7 +65,6 @@ def estimate_start(
     sweep: Sweep,
     setup: Setup,
     topology: Topology = SERIES,
-    skin_above_hz: float | None = None,
     *,
     from_extremum: bool = False,
 ) -> Start:
@@ -85,8 +84,8 @@ def estimate_start(
     else:
         f0, q, method = _from_magnitude(f, np.abs(sweep.values), setup, topology)
     extras = _extras_guess(f, np.abs(sweep.values), setup, topology, f0)
-    search = _Search(sweep, setup, topology, extras, skin_above_hz)
-    if setup.bench == "across" or (topology.name == "tank" and setup.bench != "impedance"):
+    search = _Search(sweep, setup, topology, extras)
+    if setup.bench == "across" or (topology.family == "tank" and setup.bench != "impedance"):
         q, method = search.best_q(f0, q), method + ", Q tried on a grid"
     if setup.is_calibrated:
         scale, mirror = search.scale(f0, q)
@@ -112,7 +111,7 @@ def _from_impedance(sweep: Sweep, setup: Setup, topology: Topology) -> Start | N
     ok = np.isfinite(z) & np.isfinite(noise_gain) & (noise_gain > 0) & (z != 0)
     if ok.sum() < 3:
         return None
-    if topology.name == "tank":
+    if topology.family == "tank":
         y = 1.0 / z[ok]
         weight = np.abs(z[ok]) ** 2 / noise_gain[ok]
         c_f, inv_l = _linear_fit(w[ok], y.imag, weight)
@@ -122,7 +121,8 @@ def _from_impedance(sweep: Sweep, setup: Setup, topology: Topology) -> Start | N
         near = np.argmin(np.abs(w[ok] - w0))
         r_dynamic = 1.0 / max(y.real[near], 1e-12)
         q = max(r_dynamic * w0 * c_f, 0.5)
-        return Start(w0 / TWO_PI, q, r_dynamic, 1.0, "linear least squares on Y(f)")
+        extras = _extras_guess(f, np.abs(sweep.values), setup, topology, w0 / TWO_PI, z)
+        return Start(w0 / TWO_PI, q, r_dynamic, 1.0, "linear least squares on Y(f)", extras)
     weight = 1.0 / noise_gain[ok]
     l_h, inv_c = _linear_fit(w[ok], z[ok].imag, weight)
     if not (l_h > 0 and inv_c > 0):
@@ -155,12 +155,12 @@ def _dip_at_resonance(setup: Setup, magnitude: np.ndarray, topology: Topology) -
         t = magnitude**2
     else:
         t = loop_power_transform(setup, magnitude)
-    return 1.0 / t if topology.name == "tank" else t
+    return 1.0 / t if topology.family == "tank" else t
 
 
 def _from_magnitude(f, magnitude, setup: Setup, topology: Topology) -> tuple:
     t = _dip_at_resonance(setup, magnitude, topology)
-    if setup.bench == "across" or (topology.name == "tank" and setup.bench != "impedance"):
+    if setup.bench == "across" or (topology.family == "tank" and setup.bench != "impedance"):
         # no exact linearisation here; on an impedance analyser a tank's 1/|Z|^2 is its
         # |Y|^2, the same quadratic form as a series circuit's |Z|^2
         return _from_extremum(f, t)
@@ -196,9 +196,15 @@ def _from_extremum(f: np.ndarray, t: np.ndarray) -> tuple:
 
 
 def _extras_guess(f, magnitude, setup, topology: Topology, f0, z=None) -> dict:
-    """The coil's self-resonance: a second resonance above f0 if the sweep shows one."""
-    if not topology.extras:
-        return {}
+    """The coil's self-resonance (a second resonance above f0 if the sweep shows one)
+    and, for a loss growing as sqrt(f), an even share of growing loss at f0."""
+    out = {"skin": 1.0} if "skin" in topology.extras else {}
+    if "f_self_hz" not in topology.extras:
+        return out
+    return {**out, **_self_resonance_guess(f, magnitude, setup, topology, f0, z)}
+
+
+def _self_resonance_guess(f, magnitude, setup, topology: Topology, f0, z) -> dict:
     above = f > 1.5 * f0
     if z is not None:
         # the coil's parallel resonance: Im Z falls through zero above the series one
@@ -217,9 +223,9 @@ def _extras_guess(f, magnitude, setup, topology: Topology, f0, z=None) -> dict:
 class _Search:
     """One-dimensional searches with the rest held: the scale, then a grid of Q."""
 
-    def __init__(self, sweep, setup, topology, extras, skin_above_hz) -> None:
+    def __init__(self, sweep, setup, topology, extras) -> None:
         self.sweep, self.setup, self.topology = sweep, setup, topology
-        self.extras, self.skin = extras, skin_above_hz
+        self.extras = extras
         self.coefficients = setup.coefficients(sweep.freq_hz)
 
     def cost(self, f0, q, log_scale: float) -> float:
@@ -231,7 +237,6 @@ class _Search:
             np.exp(log_scale),
             topology=self.topology,
             extras=self.extras,
-            skin_above_hz=self.skin,
             coefficients=self.coefficients,
         )
         data = self.sweep.values
@@ -272,3 +277,39 @@ def _best_gain(model: np.ndarray, data: np.ndarray) -> float:
         return float(np.real(np.vdot(model, data)) / np.vdot(model, model).real)
     mag = np.abs(model)
     return float(np.dot(mag, data) / np.dot(mag, mag))
+
+
+def resonance_side(sweep: Sweep, setup: Setup, topology: Topology) -> str | None:
+    """``"above"`` or ``"below"`` the sweep when the reading shows the resonance lies
+    beyond that end (read as ``topology``), ``None`` when its shape does not say.
+
+    The curve that dips at the resonance (see :func:`_dip_at_resonance`) keeps falling
+    toward the end of the sweep nearer the resonance: its lowest stretch sits at that
+    end. A running median over a few points keeps one noisy reading from deciding.
+    """
+    t = _dip_at_resonance(setup, np.abs(sweep.values), topology)
+    ok = np.isfinite(t)
+    if ok.sum() < 5:
+        return None
+    t = t[ok]
+    width = max(3, t.size // 20) | 1
+    padded = np.pad(t, width // 2, mode="edge")
+    smooth = np.median(np.lib.stride_tricks.sliding_window_view(padded, width), axis=1)
+    lowest = int(np.argmin(smooth))
+    if lowest >= t.size - max(2, t.size // 20):
+        return "above"
+    if lowest < max(2, t.size // 20):
+        return "below"
+    return None
+
+
+def dip_contrast(setup: Setup, magnitude: np.ndarray, topology: Topology) -> tuple:
+    """How far the curve that dips at the resonance rises from its lowest value to each
+    end of the sweep (as ratios): 2 at an end means that end is 3 dB off resonance."""
+    t = _dip_at_resonance(setup, np.abs(magnitude), topology)
+    ok = np.isfinite(t) & (t > 0)
+    if ok.sum() < 3:
+        return np.inf, np.inf
+    t = t[ok]
+    low = float(np.min(t))
+    return float(t[0] / low), float(t[-1] / low)

@@ -17,6 +17,8 @@ import math
 import re
 from dataclasses import dataclass
 
+import numpy as np
+
 from fitkit.errors import SetupError
 from fitkit.sweep import Sweep
 
@@ -33,6 +35,7 @@ class Noise:
     sigma: float | None = None  # additive: measured unit; relative: log-magnitude (nepers)
     sigma_phase_rad: float | None = None
     stated: bool = False
+    fixed_domain: bool = False  # the user chose the domain; its level is estimated
 
     def describe(self, kind: str) -> str:
         how = "stated" if self.stated else "estimated from the fit residuals"
@@ -53,7 +56,9 @@ def default_domain(sweep: Sweep) -> str:
 def parse_noise(text: str | None, sweep: Sweep) -> Noise:
     """Read a stated noise level, or choose the domain for an estimated one.
 
-    Accepted forms: ``"0.05dB"``, ``"0.05dB,0.3deg"``, ``"1%"`` (relative; phase in
+    ``"auto"`` (or nothing) lets the data choose between even and proportional noise;
+    ``"additive"`` or ``"relative"`` imposes that model with its level estimated.
+    Stated levels: ``"0.05dB"``, ``"0.05dB,0.3deg"``, ``"1%"`` (relative; phase in
     radians equal to the relative magnitude error unless given), or a plain number such
     as ``"2e-3"`` (additive, in the measured unit: volts, ohm, or a ratio).
 
@@ -62,8 +67,11 @@ def parse_noise(text: str | None, sweep: Sweep) -> Noise:
     SetupError
         When the text is none of these.
     """
-    if text is None or str(text).strip().lower() in ("", "auto", "estimate"):
+    word = "" if text is None else str(text).strip().lower()
+    if word in ("", "auto", "estimate"):
         return Noise(default_domain(sweep))
+    if word in ("additive", "relative"):
+        return Noise(word, fixed_domain=True)
     parts = [p.strip().lower() for p in str(text).split(",") if p.strip()]
     magnitude, phase = None, None
     for part in parts:
@@ -97,3 +105,49 @@ def parse_noise(text: str | None, sweep: Sweep) -> Noise:
     if sweep.is_complex and phase is None:
         phase = magnitude
     return Noise("relative", magnitude, phase if sweep.is_complex else None, stated=True)
+
+
+#: log-likelihood margin a relative noise must win by before it replaces an additive one
+#: (about "strong" evidence on Jeffreys' scale, 2 ln 10 ~ 4.6 nats, rounded up)
+RELATIVE_EVIDENCE = 5.0
+
+
+def relative_evidence(model, data) -> float:
+    """How much better noise in proportion to the reading explains ``data`` than even noise.
+
+    Both hypotheses are judged on the same data with their maximum-likelihood scales:
+    even (additive) Gaussian scatter, one sigma for every real component, against
+    Gaussian scatter of ``log(data / model)`` (log-magnitude and phase, each its own
+    sigma), whose density in the data carries the Jacobian ``1/|d|`` per magnitude and
+    ``1/|d|^2`` per complex point. The result is the log-likelihood difference less the
+    Bayesian information criterion's charge for the extra sigma (positive favours
+    relative). Near the noise floor, where readings come close to zero, the logarithm
+    punishes the relative model by itself, so weak sweeps stay additive unless the data
+    say otherwise.
+    """
+    d = np.asarray(data)
+    m = np.asarray(model)
+    ok = np.isfinite(d) & np.isfinite(m) & (np.abs(d) > 0) & (np.abs(m) > 0)
+    d, m = d[ok], m[ok]
+    n = d.size
+    if n < 10:
+        return -np.inf
+    if np.iscomplexobj(d):
+        r = d - m
+        s2 = np.mean(np.concatenate([r.real, r.imag]) ** 2)
+        log_add = -n * (math.log(2 * math.pi * s2) + 1.0)
+        lr = np.log(d / m)
+        s2m, s2p = np.mean(lr.real**2), np.mean(lr.imag**2)
+        log_rel = -0.5 * n * (math.log(4 * math.pi**2 * s2m * s2p) + 2.0)
+        log_rel -= 2.0 * float(np.sum(np.log(np.abs(d))))
+        extra = 1
+    else:
+        d, m = np.abs(d), np.abs(m)
+        s2 = np.mean((d - m) ** 2)
+        log_add = -0.5 * n * (math.log(2 * math.pi * s2) + 1.0)
+        s2m = np.mean(np.log(d / m) ** 2)
+        log_rel = -0.5 * n * (math.log(2 * math.pi * s2m) + 1.0) - float(np.sum(np.log(d)))
+        extra = 0
+    if not (s2 > 0 and math.isfinite(log_rel)):
+        return -np.inf
+    return float(log_rel - log_add - 0.5 * extra * math.log(n))

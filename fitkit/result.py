@@ -28,9 +28,25 @@ QUANTITIES = {
     "R_dynamic": ("ohm", "dynamic resistance (tank at f0)"),
     "C_self": ("F", "C self (coil self-capacitance)"),
     "f_self_hz": ("Hz", "f self (coil self-resonance)"),
+    "R_dc": ("ohm", "R dc (loss as f -> 0)"),
+    "k_skin": ("ohm/sqrt(Hz)", "k (loss growth, R_dc + k sqrt(f))"),
+    "R_self": ("ohm", "R at the coil's self-resonance"),
+    "delay_s": ("s", "delay (bench: phase slope)"),
+    "tilt_db_per_decade": ("dB/decade", "tilt (bench: generator level)"),
+    "floor_db": ("dB", "reading floor (bench, re peak)"),
 }
-#: quantities only some topologies have
-OPTIONAL = ("R_dynamic", "C_self", "f_self_hz")
+#: quantities only some topologies or benches have
+OPTIONAL = (
+    "R_dynamic",
+    "C_self",
+    "f_self_hz",
+    "R_dc",
+    "k_skin",
+    "R_self",
+    "delay_s",
+    "tilt_db_per_decade",
+    "floor_db",
+)
 COMPONENTS = ("R", "L", "C")
 
 
@@ -52,6 +68,8 @@ class Quantity:
     value: float | None
     stderr: float | None
     reason: str = ""
+    #: why the value is not to be trusted as printed (empty when it is)
+    doubtful: str = ""
 
     @property
     def unit(self) -> str:
@@ -64,13 +82,16 @@ class Quantity:
     def text(self) -> str:
         if not self.determined:
             return "not determined"
-        return format_quantity(self.value, self.unit, self.stderr)
+        text = format_quantity(self.value, self.unit, self.stderr)
+        return f"{text}  (doubtful)" if self.doubtful else text
 
     def to_dict(self) -> dict:
         out = {"value": self.value, "stderr": self.stderr, "unit": self.unit}
         out["determined"] = self.determined
         if self.reason:
             out["reason"] = self.reason
+        if self.doubtful:
+            out["doubtful"] = self.doubtful
         return out
 
 
@@ -90,6 +111,7 @@ class FitStats:
     start: str
     outliers_hz: list = field(default_factory=list)
     warnings: list = field(default_factory=list)
+    outlier_reasons: list = field(default_factory=list)
 
 
 @dataclass
@@ -171,6 +193,7 @@ class CircuitFit:
                 "noise": self.stats.noise,
                 "start": self.stats.start,
                 "outliers_hz": self.stats.outliers_hz,
+                "outlier_reasons": self.stats.outlier_reasons,
                 "warnings": self.stats.warnings,
             },
             "setup": self.setup,
@@ -190,7 +213,11 @@ class CircuitFit:
                     continue
                 entry = data["values"][name] if name in COMPONENTS else data["derived"][name]
                 quantities[name] = Quantity(
-                    name, entry["value"], entry["stderr"], entry.get("reason", "")
+                    name,
+                    entry["value"],
+                    entry["stderr"],
+                    entry.get("reason", ""),
+                    entry.get("doubtful", ""),
                 )
             stats = FitStats(**data["fit"])
             return cls(

@@ -118,7 +118,7 @@ class Setup:
             )
         if self.z0_ohm <= 0:
             raise SetupError("the reference impedance must be above 0 ohm")
-        if self.bench == "divider":
+        if self.bench == "divider" and not self.shape_only:
             if self.sense_ohm is None or not self.sense_ohm > 0:
                 raise SetupError(
                     "a divider sweep needs the sense resistor's value",
@@ -138,6 +138,13 @@ class Setup:
             )
 
     @property
+    def shape_only(self) -> bool:
+        """A relative divider sweep with no fixture values: only its shape counts. The
+        loop then reads ``H ~ 1 / Z_loop``, whose shape fixes f0 and the loaded Q and
+        nothing more; the fixture's resistance stays inside the fitted loop."""
+        return self.relative and self.bench == "divider" and self.sense_ohm is None
+
+    @property
     def emf_vrms(self) -> float | None:
         """The generator's open-circuit EMF behind its source resistance."""
         if self.amplitude_vrms is None:
@@ -152,6 +159,8 @@ class Setup:
         """The bilinear map ``m = (a Z + b) / (c Z + d)`` at each frequency."""
         w = 2.0 * np.pi * np.asarray(freq_hz, dtype=np.float64)
         one = np.ones_like(w)
+        if self.shape_only:
+            return 0.0 * one, one, one, 0.0 * one  # H = 1 / Z_loop; the gain takes the scale
         if self.bench == "divider":
             zs = self.sense_ohm / (1.0 + 1j * w * self.probe_f * self.sense_ohm)
             scale = self.emf_vrms if (self.kind == "volts" and self.emf_vrms is not None) else 1.0
@@ -195,6 +204,8 @@ class Setup:
         The loaded Q is ``w0 L / (R + external_ohm)``.
         """
         source = self.source_ohm if self.source_in_loop else 0.0
+        if self.shape_only:
+            return 0.0
         if self.bench == "divider":
             return source + self.sense_ohm
         if self.bench == "across":
@@ -212,6 +223,8 @@ class Setup:
     def describe(self) -> str:
         """One line saying what was assumed."""
         if self.bench in GENERATOR_BENCHES:
+            if self.shape_only:
+                return "divider, relative scale and no fixture values: only the shape counts"
             if self.bench == "divider":
                 parts = [f"divider, sense resistor {format_quantity(self.sense_ohm, 'ohm')}"]
             else:

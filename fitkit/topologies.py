@@ -12,8 +12,12 @@ plain floats and on correlated ``uncertainties`` values alike.
 - ``coil``: a real coil (L, loss R, self-capacitance Cself across it) in series with C;
   as ``series`` plus the coil's self-resonance.
 
-A loss that grows as sqrt(f) above a stated frequency (skin effect) multiplies R by
-``sqrt(max(f, fs) / fs)``, normalised to 1 at f0 so R is reported at the resonance.
+Each topology also comes with a loss that grows with frequency as wire
+loss does once the skin depth is well below the wire's radius (skin depth
+``sqrt(rho / (pi f mu))``; any electromagnetics text): ``r(f) = r_dc + k sqrt(f)``,
+``k >= 0``. Its extra internal number is ``x = k sqrt(f0) / r_dc``, the share of the
+loss at f0 that grows, so ``r(f) = R (1 + x sqrt(f / f0)) / (1 + x)`` with R the loss
+at f0. No corner frequency has to be known.
 """
 
 from __future__ import annotations
@@ -29,9 +33,14 @@ class Topology:
     """The series circuit; the other topologies change what differs."""
 
     name = "series"
+    family = "series"  # the circuit's shape, whatever its loss law
     label = "series R-L-C"
     extras: tuple = ()
     scale_floor_is_fixture = True  # the loop resistance cannot be below the fixture's
+
+    def loss_factor(self, freq_hz, f0_hz, extras: dict):
+        """How the loss resistance scales with frequency, 1 at the resonance."""
+        return 1.0
 
     def components(self, setup, f0, q, scale, extras: dict) -> dict:
         w0 = TWO_PI * f0
@@ -59,6 +68,7 @@ class Topology:
 
 class Tank(Topology):
     name = "tank"
+    family = "tank"
     label = "parallel tank (coil with loss across C)"
     scale_floor_is_fixture = False
 
@@ -95,6 +105,7 @@ class Tank(Topology):
 
 class Coil(Topology):
     name = "coil"
+    family = "coil"
     label = "coil with self-capacitance, in series with C"
     extras = ("f_self_hz",)
 
@@ -114,12 +125,49 @@ class Coil(Topology):
         return out
 
 
-TOPOLOGIES = {t.name: t for t in (Topology(), Tank(), Coil())}
+class SqrtLoss(Topology):
+    """A topology whose loss grows as ``r_dc + k sqrt(f)`` (see the module notes)."""
+
+    def __init__(self, base: Topology) -> None:
+        self.base = base
+        self.name = f"{base.name}-sqrtf"
+        self.family = base.family
+        self.label = f"{base.label}, loss r_dc + k sqrt(f)"
+        self.extras = (*base.extras, "skin")
+        self.scale_floor_is_fixture = base.scale_floor_is_fixture
+
+    def loss_factor(self, freq_hz, f0_hz, extras: dict):
+        x = extras["skin"]
+        return (1.0 + x * np.sqrt(np.asarray(freq_hz) / f0_hz)) / (1.0 + x)
+
+    def components(self, setup, f0, q, scale, extras: dict) -> dict:
+        comps = self.base.components(setup, f0, q, scale, extras)
+        x = extras["skin"]
+        comps["R_dc"] = comps["R"] / (1.0 + x)
+        comps["k_skin"] = comps["R"] * x / ((1.0 + x) * f0**0.5)
+        return comps
+
+    def scale_from_known(self, setup, name: str, value, f0, q):
+        return self.base.scale_from_known(setup, name, value, f0, q)
+
+    def impedance(self, freq_hz, comps: dict, loss_factor) -> np.ndarray:
+        return self.base.impedance(freq_hz, comps, loss_factor)
+
+    def derived(self, setup, f0, q, comps: dict) -> dict:
+        out = self.base.derived(setup, f0, q, comps)
+        if "f_self_hz" in out:
+            out["R_self"] = comps["R_dc"] + comps["k_skin"] * out["f_self_hz"] ** 0.5
+        return out
+
+
+_BASES = (Topology(), Tank(), Coil())
+TOPOLOGIES = {t.name: t for t in (*_BASES, *(SqrtLoss(b) for b in _BASES))}
 SERIES = TOPOLOGIES["series"]
 
 
 def get_topology(name: str) -> Topology:
-    """The topology by name (``series``, ``tank``, ``coil``)."""
+    """The topology by name (``series``, ``tank``, ``coil``, or one of them with
+    ``-sqrtf``: its loss growing as ``r_dc + k sqrt(f)``)."""
     try:
         return TOPOLOGIES[name]
     except KeyError:
@@ -128,10 +176,3 @@ def get_topology(name: str) -> Topology:
             remedy=f"choose one of: {', '.join(TOPOLOGIES)}, or auto",
         ) from None
 
-
-def loss_factor(freq_hz: np.ndarray, f0_hz: float, skin_above_hz: float | None):
-    """How the loss resistance scales with frequency, 1 at the resonance."""
-    if skin_above_hz is None:
-        return 1.0
-    growth = np.sqrt(np.maximum(freq_hz, skin_above_hz) / skin_above_hz)
-    return growth / np.sqrt(max(f0_hz, skin_above_hz) / skin_above_hz)

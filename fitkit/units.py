@@ -84,6 +84,10 @@ def _unit_spellings(unit: str) -> list[str]:
     return [unit]
 
 
+#: units printed without an SI prefix
+_NO_PREFIX = ("dB", "dB/decade")
+
+
 def format_quantity(value: float, unit: str = "", stderr: float | None = None) -> str:
     """Engineering notation with an SI prefix, and the uncertainty when given.
 
@@ -98,9 +102,10 @@ def format_quantity(value: float, unit: str = "", stderr: float | None = None) -
     """
     if value is None or not math.isfinite(value):
         return f"{value} {unit}".strip()
-    scale_exp = _prefix_exponent(value if value != 0 else (stderr or 0.0)) if unit else 0
+    prefixed = unit and unit not in _NO_PREFIX
+    scale_exp = _prefix_exponent(value if value != 0 else (stderr or 0.0)) if prefixed else 0
     scale = 10.0**scale_exp
-    prefix = _PRINT_PREFIXES.get(scale_exp, "") if unit else ""
+    prefix = _PRINT_PREFIXES.get(scale_exp, "") if prefixed else ""
     suffix = f" {prefix}{unit}" if unit else ""
     v = value / scale
     if stderr is None or not math.isfinite(stderr) or stderr <= 0:

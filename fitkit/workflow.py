@@ -19,7 +19,6 @@ def fit_file(
     noise: str | None = None,
     keep_outliers: bool = False,
     topology: str = "auto",
-    skin_above_hz: float | None = None,
     columns: dict | None = None,
 ) -> tuple[CircuitFit, Path | None]:
     """Fit the sweep in a file; the setup file beside it is used unless one is given.
@@ -36,14 +35,12 @@ def fit_file(
     known : tuple of str
         Known values as typed, e.g. ``("L=100u+-0.5u",)``.
     noise : str, optional
-        A stated noise level; estimated when omitted.
+        ``"auto"`` (default), ``"additive"``, ``"relative"`` or a stated noise level.
     keep_outliers : bool
         Keep outlying points.
     topology : str
-        ``"auto"`` (fit each model, keep the best by BIC) or ``"series"``, ``"tank"``,
-        ``"coil"``.
-    skin_above_hz : float, optional
-        The loss grows as sqrt(f) above this frequency.
+        ``"auto"`` (fit each model, keep the best by BIC) or one of
+        :data:`fitkit.topologies.TOPOLOGIES`.
     columns : dict, optional
         Column overrides for the reader; they win over the setup file's ``[columns]``.
 
@@ -69,6 +66,5 @@ def fit_file(
         known=known_map,
         noise=noise,
         keep_outliers=keep_outliers,
-        skin_above_hz=skin_above_hz,
     )
     return fit, bench_path

@@ -150,7 +150,8 @@ def test_wrong_model_shows_structured_residuals():
     z_series = 5.0 + 1j * (w * 100e-6 - 1 / (w * 1e-9))
     bent = z_series * (1 + 0.05 * np.sin(w / w[0] * 3)) * np.exp(1e-3j * rng.normal(size=f.size))
     fit = fit_sweep(Sweep(f, bent, "impedance"), SETUPS["impedance"])
-    assert any("structured" in w for w in fit.stats.warnings)
+    assert any("does not describe this sweep" in w for w in fit.stats.warnings)
+    assert all(q.doubtful for q in fit.quantities.values() if q.determined)
 
 
 def test_a_fit_ending_at_its_search_limit_says_so():
@@ -164,14 +165,18 @@ def test_a_fit_ending_at_its_search_limit_says_so():
 
 
 def test_scatter_that_grows_with_the_reading_is_pointed_out():
-    """Readings with a relative error fitted with even weights: the fit says so."""
+    """Readings with a relative error: the data choose the relative noise model by
+    themselves; imposed even weights get a warning and doubtful values."""
     setup = SETUPS["divider-terminal"]
     relative = make_sweep(setup, seed=3, noise=0.01, relative_noise=True)
-    fit = fit_sweep(relative, setup)
-    assert any("scatter grows with the reading" in w for w in fit.stats.warnings)
+    imposed = fit_sweep(relative, setup, noise="additive")
+    assert any("scatter grows with the reading" in w for w in imposed.stats.warnings)
+    assert imposed["L"].doubtful
     even = make_sweep(setup, seed=3, noise=1e-3)
-    assert not any("scatter grows" in w for w in fit_sweep(even, setup).stats.warnings)
-    # with the right weighting the warning goes, and the values come back
-    fixed = fit_sweep(relative, setup, noise="1%")
+    chosen_even = fit_sweep(even, setup)
+    assert chosen_even.stats.noise.startswith("additive")
+    assert not chosen_even.stats.warnings
+    fixed = fit_sweep(relative, setup)
+    assert fixed.stats.noise.startswith("relative")
     assert not any("scatter grows" in w for w in fixed.stats.warnings)
     _within(fixed, "L", TRUTH["L"])

@@ -13,7 +13,6 @@ from fitkit.errors import refuse_overwrite
 from fitkit.report.table import fit_table
 from fitkit.setups import BENCHES, DISPLAYS, REFERENCES
 from fitkit.topologies import TOPOLOGIES
-from fitkit.units import parse_quantity
 from fitkit.workflow import fit_file
 
 
@@ -75,7 +74,8 @@ model_option = click.option(
     default="auto",
     show_default=True,
     help="Circuit model: series R-L-C, tank (coil with loss across C), coil (with "
-    "self-capacitance, in series with C), or auto: fit each, keep the best by BIC.",
+    "self-capacitance, in series with C), each also with -sqrtf (its loss growing as "
+    "R_dc + k sqrt(f)), or auto: fit each, keep the best by BIC.",
 )
 
 
@@ -101,20 +101,17 @@ def overrides_from_options(opts: dict) -> dict:
 @read_options
 @click.option(
     "--noise",
-    help="Stated noise: '0.05dB', '0.05dB,0.3deg', '1%' or an additive '2e-3'. "
-    "Default: estimated from the residuals.",
+    help="Noise model: auto [default: even or in proportion to the reading, as the data "
+    "say; level estimated], additive, relative, or a stated level: '0.05dB', "
+    "'0.05dB,0.3deg', '1%' or an additive '2e-3'.",
 )
 @model_option
-@click.option(
-    "--skin-above",
-    help="The loss grows as sqrt(f) above this frequency (skin effect), e.g. 200k.",
-)
 @click.option("--keep-outliers", is_flag=True, help="Do not refit without outlying points.")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of a table.")
 @plot_options
 @reports_errors
 def fit_command(
-    sweep_file, noise, model, skin_above, keep_outliers, as_json, plot_path, force, **opts
+    sweep_file, noise, model, keep_outliers, as_json, plot_path, force, **opts
 ):
     """Fit a circuit to SWEEP_FILE and print R, L, C, f0, Q and bandwidth.
 
@@ -134,9 +131,6 @@ def fit_command(
         noise=noise,
         keep_outliers=keep_outliers,
         topology=model,
-        skin_above_hz=parse_quantity(skin_above, "Hz", what="skin-effect frequency")
-        if skin_above
-        else None,
         columns=columns_from_options(**opts),
     )
     if plot_path:

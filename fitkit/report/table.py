@@ -39,9 +39,9 @@ def fit_table(fit: CircuitFit) -> str:
         f"residual RMS {rms}, {verdict}"
     )
     if s.outliers_hz:
-        shown = ", ".join(f"{f:.6g} Hz" for f in s.outliers_hz[:5])
+        shown = "; ".join(s.outlier_reasons[:5] or [f"{f:.6g} Hz" for f in s.outliers_hz[:5]])
         more = " ..." if len(s.outliers_hz) > 5 else ""
-        lines.append(f"  refit    without {len(s.outliers_hz)} outlying point(s) at {shown}{more}")
+        lines.append(f"  refit    without {len(s.outliers_hz)} outlying point(s): {shown}{more}")
     for text in s.warnings:
         lines.append(f"  warning: {text}")
     if fit.undetermined:
