@@ -115,6 +115,7 @@ def fit_sweep(
     if not (noise_model.stated or noise_model.fixed_domain):
         first, _ = choose_noise_domain(problem, first, domain)
     problem, first = add_bench_terms(problem, first)
+    problem.check_inside(math.exp(first.params["lnf0"].value), "the fitted resonance")
     evidence = resonance_evidence(problem, first)
     f = sweep.freq_hz
     span = f"between {format_quantity(f[0], 'Hz')} and {format_quantity(f[-1], 'Hz')}"
