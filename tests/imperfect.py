@@ -214,22 +214,35 @@ def relative(clean, magnitude_share, phase_deg, rng) -> np.ndarray:
 
 
 # -- the cases -----------------------------------------------------------------------------
-def _clean_control(rng) -> dict:
-    r, l_h, c_f, sense = 8.0, 220e-6, 115e-12, 47.0
-    truth = series_truth(r, l_h, c_f, sense)
-    f = span(truth["f0_hz"], truth["loaded_bandwidth_hz"], 4.0)
-    clean = divider_ratio(series_impedance(f, r, l_h, c_f), sense)
+def _spec(effect, band, setup, truth, freq, clean, values, **extra) -> dict:
+    """What a builder returns: the fields of an ImperfectCase, with the sweep's parts."""
     return dict(
-        effect="none: complex divider ratio, 50 dB SNR (the control)",
-        band="MW",
-        freq=f,
-        clean=clean,
-        values=additive(clean, 3e-3, rng),
-        kind="ratio",
-        setup=Setup("divider", "ratio", sense_ohm=sense),
+        effect=effect,
+        band=band,
+        setup=setup,
         truth=truth,
-        must_be_right=tuple(truth),
+        freq=freq,
+        clean=clean,
+        values=values,
+        **extra,
     )
+
+
+def _series_on_divider(r, l_h, f0_hz, sense, half_span_bw=4.0) -> tuple:
+    """A series circuit read as a divider ratio over f0 +- a few loaded bandwidths:
+    ``(truth, freq, clean ratio, setup)``."""
+    c_f = capacitor_for(f0_hz, l_h)
+    truth = series_truth(r, l_h, c_f, sense)
+    f = span(truth["f0_hz"], truth["loaded_bandwidth_hz"], half_span_bw)
+    clean = divider_ratio(series_impedance(f, r, l_h, c_f), sense)
+    return truth, f, clean, Setup("divider", "ratio", sense_ohm=sense)
+
+
+def _clean_control(rng) -> dict:
+    truth, f, clean, setup = _series_on_divider(8.0, 220e-6, 1e6, 47.0)
+    effect = "none: complex divider ratio, 50 dB SNR (the control)"
+    noisy = additive(clean, 3e-3, rng)
+    return _spec(effect, "MW", setup, truth, f, clean, noisy, must_be_right=tuple(truth))
 
 
 def coil_grid() -> np.ndarray:
@@ -254,47 +267,28 @@ def coil_loss_k() -> float:
 
 
 def _coil_self_capacitance(rng) -> dict:
-    f = coil_grid()
-    f_self = coil_self_resonance_hz()
+    f, f_self, k = coil_grid(), coil_self_resonance_hz(), coil_loss_k()
     cp = capacitor_for(f_self, COIL_L_H)
-    k = coil_loss_k()
     clean = tank_impedance(f, skin_loss(f, COIL_R_DC, k), COIL_L_H, cp)
-    r_at_self = float(skin_loss(f_self, COIL_R_DC, k))
-    truth = tank_truth(r_at_self, COIL_L_H, cp, 0.0)
+    truth = tank_truth(float(skin_loss(f_self, COIL_R_DC, k)), COIL_L_H, cp, 0.0)
     # the same network read as a coil with self-capacitance (names of the coil topology)
     truth.update(C_self=cp, f_self_hz=f_self)
-    return dict(
-        effect="coil self-capacitance, loss r_dc + k sqrt(f), log grid over three decades, "
-        "resonance between two points",
-        band="audio to MW",
-        freq=f,
-        clean=clean,
-        values=relative(clean, 0.002, 0.1, rng),
-        kind="impedance",
-        setup=Setup("impedance", "impedance"),
-        truth=truth,
+    effect = (
+        "coil self-capacitance, loss r_dc + k sqrt(f), log grid over three decades, "
+        "resonance between two points"
     )
+    noisy = relative(clean, 0.002, 0.1, rng)
+    return _spec(effect, "audio to MW", Setup("impedance", "impedance"), truth, f, clean, noisy)
 
 
 def _low_snr_magnitude(rng) -> dict:
-    r, l_h, sense = 10.0, 470e-6, 50.0
-    c_f = capacitor_for(455e3, l_h)
-    truth = series_truth(r, l_h, c_f, sense)
-    f = span(truth["f0_hz"], truth["loaded_bandwidth_hz"], 3.0)
-    clean = divider_ratio(series_impedance(f, r, l_h, c_f), sense)
+    truth, f, clean, setup = _series_on_divider(10.0, 470e-6, 455e3, 50.0, half_span_bw=3.0)
     # a reading locked to the signal's phase: |H| plus Gaussian noise, which can dip below
     # zero in the tails; 12 dB peak SNR
-    sigma = np.max(np.abs(clean)) / 10 ** (12.0 / 20.0)
-    return dict(
-        effect="magnitude-only divider ratio at 12 dB peak SNR, additive noise",
-        band="IF 455 kHz",
-        freq=f,
-        clean=np.abs(clean),
-        values=np.abs(clean) + sigma * rng.normal(size=f.size),
-        kind="ratio",
-        setup=Setup("divider", "ratio", sense_ohm=sense),
-        truth=truth,
-    )
+    mag = np.abs(clean)
+    noisy = mag + np.max(mag) / 10 ** (12.0 / 20.0) * rng.normal(size=f.size)
+    effect = "magnitude-only divider ratio at 12 dB peak SNR, additive noise"
+    return _spec(effect, "IF 455 kHz", setup, truth, f, mag, noisy)
 
 
 def _impedance_relative_noise(rng) -> dict:
@@ -303,16 +297,9 @@ def _impedance_relative_noise(rng) -> dict:
     truth = tank_truth(r, l_h, c_f, 0.0)
     f = span(truth["f0_hz"], truth["bandwidth_hz"], 4.0)
     clean = tank_impedance(f, r, l_h, c_f)
-    return dict(
-        effect="impedance analyser, noise 0.5 % of |Z| and 0.3 deg",
-        band="IF 10.7 MHz",
-        freq=f,
-        clean=clean,
-        values=relative(clean, 0.005, 0.3, rng),
-        kind="impedance",
-        setup=Setup("impedance", "impedance"),
-        truth=truth,
-    )
+    effect = "impedance analyser, noise 0.5 % of |Z| and 0.3 deg"
+    noisy = relative(clean, 0.005, 0.3, rng)
+    return _spec(effect, "IF 10.7 MHz", Setup("impedance", "impedance"), truth, f, clean, noisy)
 
 
 def _generator_tilt(rng) -> dict:
@@ -323,17 +310,13 @@ def _generator_tilt(rng) -> dict:
     # the generator's output slopes linearly in log f from -0.3 dB to +0.3 dB
     position = np.log(f / f[0]) / math.log(f[-1] / f[0])
     tilted = np.abs(clean) * 10 ** ((0.6 * position - 0.3) / 20.0)
-    return dict(
-        effect="volts, magnitude only, no reference channel; generator output tilts "
-        "+-0.3 dB linearly in log f",
-        band="audio",
-        freq=f,
-        clean=tilted,
-        values=additive(tilted, 1e-3, rng, magnitude_only=True),
-        kind="volts",
-        setup=Setup("divider", "volts", sense_ohm=sense, amplitude_vrms=1.0, display="matched"),
-        truth=truth,
+    setup = Setup("divider", "volts", sense_ohm=sense, amplitude_vrms=1.0, display="matched")
+    effect = (
+        "volts, magnitude only, no reference channel; generator output tilts "
+        "+-0.3 dB linearly in log f"
     )
+    noisy = additive(tilted, 1e-3, rng, magnitude_only=True)
+    return _spec(effect, "audio", setup, truth, f, tilted, noisy)
 
 
 #: the tank of the channel-skew case (455 kHz IF can) and its bench
@@ -350,16 +333,9 @@ def _channel_skew(rng) -> dict:
     truth = tank_truth(r, l_h, c_f, feed)
     f = span(truth["f0_hz"], truth["loaded_bandwidth_hz"], 4.0)
     clean = across_ratio(tank_impedance(f, r, l_h, c_f), feed) * delay(f, skew_seconds())
-    return dict(
-        effect="inter-channel time skew of 3 % of a period at f0 (complex ratio)",
-        band="IF 455 kHz",
-        freq=f,
-        clean=clean,
-        values=additive(clean, 1e-3, rng),
-        kind="ratio",
-        setup=Setup("across", "ratio", feed_ohm=feed),
-        truth=truth,
-    )
+    effect = "inter-channel time skew of 3 % of a period at f0 (complex ratio)"
+    setup = Setup("across", "ratio", feed_ohm=feed)
+    return _spec(effect, "IF 455 kHz", setup, truth, f, clean, additive(clean, 1e-3, rng))
 
 
 #: the series trap of the calibration-plane case and the line left between plane and part
@@ -371,39 +347,20 @@ def _s11_reference_plane(rng) -> dict:
     c_f = capacitor_for(PLANE["f0"], l_h)
     truth = series_truth(r, l_h, c_f, 50.0)
     f = span(truth["f0_hz"], truth["loaded_bandwidth_hz"], 4.0)
-    clean = reflection(series_impedance(f, r, l_h, c_f)) * delay(
-        f, 2.0 * PLANE["length_m"] / CABLE_VELOCITY
-    )
-    return dict(
-        effect="S11 with the calibration plane 4 cm of cable (v = 0.66 c) from the part",
-        band="VHF",
-        freq=f,
-        clean=clean,
-        values=additive(clean, 2e-3, rng),
-        kind="s11",
-        setup=Setup("reflection", "s11"),
-        truth=truth,
-    )
+    line = delay(f, 2.0 * PLANE["length_m"] / CABLE_VELOCITY)
+    clean = reflection(series_impedance(f, r, l_h, c_f)) * line
+    effect = "S11 with the calibration plane 4 cm of cable (v = 0.66 c) from the part"
+    setup = Setup("reflection", "s11")
+    return _spec(effect, "VHF", setup, truth, f, clean, additive(clean, 2e-3, rng))
 
 
 def _range_switch_step(rng) -> dict:
-    r, l_h, sense = 6.0, 150e-6, 33.0
-    c_f = capacitor_for(1.2e6, l_h)
-    truth = series_truth(r, l_h, c_f, sense)
-    f = span(truth["f0_hz"], truth["loaded_bandwidth_hz"], 4.0)
-    clean = divider_ratio(series_impedance(f, r, l_h, c_f), sense)
+    truth, f, clean, setup = _series_on_divider(6.0, 150e-6, 1.2e6, 33.0)
     # the instrument changes range 2 loaded bandwidths above resonance, reading 3 % high
-    stepped = clean * np.where(f > truth["f0_hz"] + 2.0 * truth["loaded_bandwidth_hz"], 1.03, 1.0)
-    return dict(
-        effect="range switch: magnitude x1.03 above f0 + 2 loaded bandwidths (complex ratio)",
-        band="MW",
-        freq=f,
-        clean=stepped,
-        values=additive(stepped, 1e-3, rng),
-        kind="ratio",
-        setup=Setup("divider", "ratio", sense_ohm=sense),
-        truth=truth,
-    )
+    above = f > truth["f0_hz"] + 2.0 * truth["loaded_bandwidth_hz"]
+    stepped = clean * np.where(above, 1.03, 1.0)
+    effect = "range switch: magnitude x1.03 above f0 + 2 loaded bandwidths (complex ratio)"
+    return _spec(effect, "MW", setup, truth, f, stepped, additive(stepped, 1e-3, rng))
 
 
 def _reading_floor(rng) -> dict:
@@ -415,44 +372,28 @@ def _reading_floor(rng) -> dict:
     mag = np.abs(divider_ratio(series_impedance(f, r, l_h, c_f), sense))
     floor = np.max(mag) * 10 ** (-50.0 / 20.0)
     floored = np.sqrt(mag**2 + floor**2)
-    noisy_db = 20.0 * np.log10(floored) + 0.05 * rng.normal(size=f.size)
-    return dict(
-        effect="magnitude in dB with a reading floor 50 dB below the peak, 0.05 dB noise",
-        band="MW",
-        freq=f,
-        clean=floored,
-        values=10 ** (noisy_db / 20.0),
-        kind="ratio",
-        recorded_in_db=True,
-        setup=Setup("divider", "ratio", sense_ohm=sense),
-        truth=truth,
-    )
+    noisy = floored * 10 ** (0.05 * rng.normal(size=f.size) / 20.0)
+    effect = "magnitude in dB with a reading floor 50 dB below the peak, 0.05 dB noise"
+    setup = Setup("divider", "ratio", sense_ohm=sense)
+    return _spec(effect, "MW", setup, truth, f, floored, noisy, recorded_in_db=True)
 
 
 def _glitch_and_lone_peak(rng) -> dict:
     r, l_h, sense = 20.0, 50e-3, 20.0
     c_f = capacitor_for(5e3, l_h)
     truth = series_truth(r, l_h, c_f, sense)
-    f0 = truth["f0_hz"]
     # 160 Hz steps, one of them on f0: the only point inside the 127 Hz half-power band
-    f = f0 + 160.0 * np.arange(-15, 16)
+    f = truth["f0_hz"] + 160.0 * np.arange(-15, 16)
     clean = divider_ratio(series_impedance(f, r, l_h, c_f), sense)
-    values = additive(clean, 1e-3, rng)
+    noisy = additive(clean, 1e-3, rng)
     glitch = 24  # 1.44 kHz above f0, far out in the tail
-    values[glitch] += 0.2
-    return dict(
-        effect="one big glitch off resonance, and the peak sample the only point in the "
-        "half-power band",
-        band="audio",
-        freq=f,
-        clean=clean,
-        values=values,
-        kind="ratio",
-        setup=Setup("divider", "ratio", sense_ohm=sense),
-        truth=truth,
-        drop_hz=(float(f[glitch]),),
-        keep_hz=(float(f[15]),),
+    noisy[glitch] += 0.2
+    effect = (
+        "one big glitch off resonance, and the peak sample the only point in the half-power band"
     )
+    setup = Setup("divider", "ratio", sense_ohm=sense)
+    points = dict(drop_hz=(float(f[glitch]),), keep_hz=(float(f[15]),))
+    return _spec(effect, "audio", setup, truth, f, clean, noisy, **points)
 
 
 def _sparse_peak(rng) -> dict:
@@ -463,16 +404,10 @@ def _sparse_peak(rng) -> dict:
     step = 0.45 * bw  # two or three points inside the half-power band
     f = f0 - 4.0 * bw + 0.3 * step + step * np.arange(18)
     clean = across_ratio(tank_impedance(f, r, l_h, c_f), feed)
-    return dict(
-        effect="sparse peak: 18 points, 2-3 inside the half-power band (magnitude only)",
-        band="MW",
-        freq=f,
-        clean=np.abs(clean),
-        values=additive(clean, 5e-3, rng, magnitude_only=True),
-        kind="ratio",
-        setup=Setup("across", "ratio", feed_ohm=feed),
-        truth=truth,
-    )
+    noisy = additive(clean, 5e-3, rng, magnitude_only=True)
+    effect = "sparse peak: 18 points, 2-3 inside the half-power band (magnitude only)"
+    setup = Setup("across", "ratio", feed_ohm=feed)
+    return _spec(effect, "MW", setup, truth, f, np.abs(clean), noisy)
 
 
 def _weak_peak(rng) -> dict:
@@ -481,60 +416,33 @@ def _weak_peak(rng) -> dict:
     truth = series_truth(r, l_h, c_f, 100.0)
     f = span(truth["f0_hz"], truth["loaded_bandwidth_hz"], 3.0)
     clean = series_through(series_impedance(f, r, l_h, c_f))
-    return dict(
-        effect="weak peak: complex S21 at 10 dB SNR",
-        band="VHF",
-        freq=f,
-        clean=clean,
-        values=additive(clean, 10 ** (-10.0 / 20.0), rng),
-        kind="s21",
-        setup=Setup("series-through", "s21"),
-        truth=truth,
-    )
+    noisy = additive(clean, 10 ** (-10.0 / 20.0), rng)
+    setup = Setup("series-through", "s21")
+    return _spec("weak peak: complex S21 at 10 dB SNR", "VHF", setup, truth, f, clean, noisy)
 
 
 def _slow_drift(rng) -> dict:
     r, l_h, sense = 12.0, 10e-3, 22.0
-    c_mid = capacitor_for(15e3, l_h)
-    truth = series_truth(r, l_h, c_mid, sense)
-    f0, bw = truth["f0_hz"], truth["loaded_bandwidth_hz"]
-    f = span(f0, bw, 4.0)
+    truth, f, _, setup = _series_on_divider(r, l_h, 15e3, sense)
     # the capacitor warms during the sweep: f0 rises by 0.3 loaded bandwidths from the
     # first point to the last; the truth is the circuit at mid-sweep
-    f0_now = f0 + 0.3 * bw * (np.linspace(0.0, 1.0, f.size) - 0.5)
-    clean = divider_ratio(series_impedance(f, r, l_h, capacitor_for(f0_now, l_h)), sense)
-    return dict(
-        effect="f0 drifts by 0.3 loaded bandwidths during the sweep (complex ratio)",
-        band="audio",
-        freq=f,
-        clean=clean,
-        values=additive(clean, 1e-3, rng),
-        kind="ratio",
-        setup=Setup("divider", "ratio", sense_ohm=sense),
-        truth=truth,
-    )
+    drift = 0.3 * truth["loaded_bandwidth_hz"] * (np.linspace(0.0, 1.0, f.size) - 0.5)
+    c_now = capacitor_for(truth["f0_hz"] + drift, l_h)
+    clean = divider_ratio(series_impedance(f, r, l_h, c_now), sense)
+    effect = "f0 drifts by 0.3 loaded bandwidths during the sweep (complex ratio)"
+    return _spec(effect, "audio", setup, truth, f, clean, additive(clean, 1e-3, rng))
 
 
 def _relative_scale(rng) -> dict:
-    r, l_h, sense = 2.5, 2.2e-6, 22.0
-    c_f = capacitor_for(10.7e6, l_h)
-    full = series_truth(r, l_h, c_f, sense)
-    f = span(full["f0_hz"], full["loaded_bandwidth_hz"], 4.0)
+    full, f, clean, _ = _series_on_divider(2.5, 2.2e-6, 10.7e6, 22.0)
     # uncalibrated channels: the ratio carries an unknown gain; the sense resistor unknown
-    clean = 0.37 * divider_ratio(series_impedance(f, r, l_h, c_f), sense)
+    clean = 0.37 * clean
     shape = ("f0_hz", "Q_loaded", "loaded_bandwidth_hz")
     truth = {n: (full[n] if n in shape else None) for n in full}
-    return dict(
-        effect="relative scale, no fixture values: only the shape counts",
-        band="IF 10.7 MHz",
-        freq=f,
-        clean=clean,
-        values=additive(clean, 2e-3, rng),
-        kind="ratio",
-        setup=Setup("divider", "ratio", relative=True),
-        truth=truth,
-        must_be_right=shape,
-    )
+    effect = "relative scale, no fixture values: only the shape counts"
+    setup = Setup("divider", "ratio", relative=True)
+    noisy = additive(clean, 2e-3, rng)
+    return _spec(effect, "IF 10.7 MHz", setup, truth, f, clean, noisy, must_be_right=shape)
 
 
 def _open_capacitor(rng) -> dict:
@@ -543,35 +451,21 @@ def _open_capacitor(rng) -> dict:
     r, l_h, c_stray, sense = 5.0, 330e-6, 3e-12, 47.0
     f = np.linspace(100e3, 300e3, 201)
     clean = divider_ratio(series_impedance(f, r, l_h, c_stray), sense)
-    return dict(
-        effect="open capacitor: resonance near 5 MHz, swept 100-300 kHz",
-        band="LW kit",
-        freq=f,
-        clean=clean,
-        values=additive(clean, 1e-3, rng),
-        kind="ratio",
-        setup=Setup("divider", "ratio", sense_ohm=sense),
-        truth={},
-        expect="refusal",
-        refusal=r"above 300(\.0+)? kHz",
-    )
+    effect = "open capacitor: resonance near 5 MHz, swept 100-300 kHz"
+    setup = Setup("divider", "ratio", sense_ohm=sense)
+    refuse = dict(expect="refusal", refusal=r"above 300(\.0+)? kHz")
+    return _spec(effect, "LW kit", setup, {}, f, clean, additive(clean, 1e-3, rng), **refuse)
 
 
 def _flat_resistor(rng) -> dict:
     f = np.geomspace(1e3, 100e3, 101)
     clean = np.full(f.size, 1000.0 + 0j)
-    return dict(
-        effect="no resonance at all: a 1 kohm resistor on an impedance analyser",
-        band="audio",
-        freq=f,
-        clean=clean,
-        values=relative(clean, 0.005, 0.3, rng),
-        kind="impedance",
-        setup=Setup("impedance", "impedance"),
-        truth={"R": 1000.0},
-        expect="refusal-or-doubt",
-        must_doubt=("L", "C", "f0_hz", "Q", "Q_loaded", "bandwidth_hz", "loaded_bandwidth_hz"),
-    )
+    effect = "no resonance at all: a 1 kohm resistor on an impedance analyser"
+    doubt = ("L", "C", "f0_hz", "Q", "Q_loaded", "bandwidth_hz", "loaded_bandwidth_hz")
+    setup = Setup("impedance", "impedance")
+    noisy = relative(clean, 0.005, 0.3, rng)
+    outcome = dict(expect="refusal-or-doubt", must_doubt=doubt)
+    return _spec(effect, "audio", setup, {"R": 1000.0}, f, clean, noisy, **outcome)
 
 
 _BUILDERS = {
@@ -607,7 +501,7 @@ def make_case(name: str, seed: int = 0) -> ImperfectCase:
     sweep = Sweep(
         spec.pop("freq"),
         spec.pop("values"),
-        spec.pop("kind"),
+        spec["setup"].kind,
         recorded_in_db=spec.pop("recorded_in_db", False),
         source=f"<imperfect:{name}:{seed}>",
     )

@@ -37,12 +37,16 @@ def _lin(freq_hz: np.ndarray) -> str:
     return f".ac lin {freq_hz.size} {S(freq_hz[0])} {S(freq_hz[-1])}"
 
 
+def _case_and_capacitor(name: str, params: dict) -> tuple:
+    """The case, its frequencies, and the capacitor that tunes its coil to f0."""
+    case = make_case(name, seed=0)
+    return case, case.sweep.freq_hz, imperfect.capacitor_for(params["f0"], params["L"])
+
+
 @pytest.mark.ngspice
 def test_channel_skew_against_ngspice(tmp_path):
-    case = make_case("channel_skew", seed=0)
-    f = case.sweep.freq_hz
     p = imperfect.SKEW
-    c_f = imperfect.capacitor_for(p["f0"], p["L"])
+    case, f, c_f = _case_and_capacitor("channel_skew", p)
     netlist = f"""tank across its feed resistor, second channel delayed
 Vin in 0 AC 1
 Rfeed in out {S(p["feed"])}
@@ -63,10 +67,8 @@ Rload n2 0 50
 
 @pytest.mark.ngspice
 def test_calibration_plane_against_ngspice(tmp_path):
-    case = make_case("s11_reference_plane", seed=0)
-    f = case.sweep.freq_hz
     p = imperfect.PLANE
-    c_f = imperfect.capacitor_for(p["f0"], p["L"])
+    case, f, c_f = _case_and_capacitor("s11_reference_plane", p)
     netlist = f"""series trap behind a length of 50 ohm cable
 Vs src 0 AC 1
 Rsrc src port 50
