@@ -15,7 +15,9 @@ robustness work removes. Per case and quantity the table gives the truth, the me
 each outcome among the case's runs (a run that refused has no values, and the topology
 chosen may not report every quantity, so a row need not sum to 100); the last line pools
 every verdict. Rows "(fit)" are about the fit as a whole (a refusal), "glitch dropped"
-and "peak point kept" about the outlier step.
+and "peak point kept" about the outlier step. A first table gives per case the share of
+runs refused, with a warning, with a value marked doubtful, and with every verdict
+acceptable (for the clean control, "warned" is the false-alarm rate).
 """
 
 from __future__ import annotations
@@ -38,6 +40,7 @@ import numpy as np  # noqa: E402
 
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
+from fitkit.errors import FitkitError  # noqa: E402
 from fitkit.result import QUANTITIES  # noqa: E402
 from fitkit.units import format_quantity  # noqa: E402
 from tests.imperfect import CASE_NAMES  # noqa: E402
@@ -54,16 +57,42 @@ SHORT = {
 
 
 def run(cases: list, seeds: int) -> tuple:
-    """Every verdict of every case and seed, and the worst wrong verdict per case."""
-    verdicts, worst = [], {}
+    """Every verdict of every case and seed, per case a count of how its runs went, and
+    the worst wrong verdict per case."""
+    verdicts, runs, worst = [], {}, {}
     for name in cases:
+        runs[name] = Counter()
         for seed in range(seeds):
-            _, _, judged = run_case(name, seed)
+            _, fit, judged = run_case(name, seed)
             verdicts += judged
+            runs[name].update(_how_it_went(fit, judged))
             for v in judged:
                 if v.outcome == WRONG and v.z > getattr(worst.get(name), "z", -1.0):
                     worst[name] = v
-    return verdicts, worst
+    return verdicts, runs, worst
+
+
+def _how_it_went(fit, judged) -> list:
+    """Labels of one run: refused, warned, doubted (a value marked), all acceptable."""
+    if isinstance(fit, FitkitError):
+        labels = ["refused"]
+    else:
+        labels = ["warned"] if fit.stats.warnings else []
+        if any(getattr(q, "doubtful", "") for q in fit.quantities.values()):
+            labels.append("doubted")
+    return labels + (["acceptable"] if all(v.acceptable for v in judged) else [])
+
+
+def run_table(runs: dict, seeds: int) -> list:
+    """Markdown rows, one per case: how its runs went (the clean control's "warned" share
+    is the false-alarm rate)."""
+    labels = ("refused", "warned", "doubted", "acceptable")
+    lines = ["| case | " + " | ".join(f"{x} %" for x in labels) + " |"]
+    lines.append("|---|" + "---|" * len(labels))
+    for name, counts in runs.items():
+        shares = " | ".join(f"{100.0 * counts[x] / seeds:.0f}" for x in labels)
+        lines.append(f"| {name} | {shares} |")
+    return lines
 
 
 def _truth_text(quantity: str, truth) -> str:
@@ -112,7 +141,7 @@ def main() -> None:
     if unknown:
         parser.error(f"unknown case(s) {', '.join(unknown)}; known: {', '.join(CASE_NAMES)}")
     began = time.perf_counter()
-    verdicts, worst = run(cases, args.seeds)
+    verdicts, runs, worst = run(cases, args.seeds)
     seconds = time.perf_counter() - began
     command = f"python benchmarks/robustness.py --seeds {args.seeds}"
     if args.cases:
@@ -123,6 +152,9 @@ def main() -> None:
         f"Machine: {os.cpu_count()} cores, Python {platform.python_version()}, "
         f"numpy {np.__version__}\n"
     )
+    print("## Per case: how the runs went\n")
+    print("\n".join(run_table(runs, args.seeds)))
+    print("\n## Per case and quantity\n")
     print("\n".join(table(verdicts, args.seeds)))
     acceptable = sum(v.acceptable for v in verdicts)
     print(
