@@ -11,11 +11,12 @@ from __future__ import annotations
 
 import math
 from dataclasses import replace
+from types import SimpleNamespace
 
 import numpy as np
 import pytest
 
-from fitkit.errors import FitkitError
+from fitkit.errors import FitError, FitkitError
 from tests import imperfect
 from tests.imperfect import CASE_NAMES, make_case
 from tests.verdicts import RIGHT, Z_LIMIT, doubtful, fit_case, judge, run_case
@@ -140,3 +141,42 @@ def test_judge_catches_a_confident_wrong_value():
     assert verdicts[0].z == pytest.approx(10.0, rel=1e-9)
     assert not doubtful(fit, q)
     assert Z_LIMIT == 4.0
+
+
+@pytest.mark.parametrize("warned", [True, False])
+def test_judge_counts_a_doubtful_value_only_with_a_warning(warned):
+    # a value 10 standard errors off is flagged, not wrong, when it is marked doubtful
+    # and the fit warns; a mark without a warning is not enough
+    case = make_case("clean_control", seed=0)
+    fit = fit_case(case)
+    q = fit["L"]
+    fit.quantities["L"] = SimpleNamespace(
+        name="L", value=q.value, stderr=q.stderr, determined=True, reason="", doubtful="why"
+    )
+    fit.stats.warnings = ["the model does not describe this sweep"] if warned else []
+    moved = {"L": q.value + 10 * q.stderr}
+    (verdict,) = judge(replace(case, truth=moved, must_be_right=()), fit)
+    assert verdict.outcome == ("flagged" if warned else "confidently wrong")
+    assert verdict.acceptable == warned
+
+
+@pytest.mark.parametrize(
+    "message, outcome",
+    [
+        ("the resonance lies above 300 kHz, outside the sweep", "refused"),
+        ("the fitted resonance lies at 5.866 kHz, outside the sweep", "refused wrongly"),
+    ],
+)
+def test_judge_checks_what_a_refusal_says(message, outcome):
+    case = make_case("open_capacitor", seed=0)
+    (verdict,) = judge(case, FitError(message))
+    assert verdict.outcome == outcome
+    assert verdict.acceptable == (outcome == "refused")
+
+
+def test_judge_rejects_a_number_that_cannot_be_known():
+    # a value the sweep cannot determine must be "not determined", not a plain number
+    case = make_case("clean_control", seed=0)
+    fit = fit_case(case)
+    (verdict,) = judge(replace(case, truth={"R": None}, must_be_right=()), fit)
+    assert verdict.outcome == "confidently wrong"
