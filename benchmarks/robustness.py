@@ -136,6 +136,8 @@ def main() -> None:
     parser.add_argument("--seeds", type=int, default=20, help="Seeds per case (default 20).")
     parser.add_argument("--cases", default="", help="Comma-separated case names (default all).")
     args = parser.parse_args()
+    if args.seeds < 1:
+        parser.error(f"--seeds must be 1 or more, not {args.seeds}")
     cases = [c.strip() for c in args.cases.split(",") if c.strip()] or list(CASE_NAMES)
     unknown = sorted(set(cases) - set(CASE_NAMES))
     if unknown:
