@@ -141,7 +141,8 @@ def _adequacy(problem, result, noise, used) -> list:
         turn = np.conj(model) / np.maximum(np.abs(model), 1e-300)
         r = (a + 1j * b) * turn
         parts = {"magnitude": r.real / noise.sigma, "phase": r.imag / noise.sigma}
-        found = check_structure(parts) + check_circle(r.real, r.imag, len(parts))
+        # a misfit also splits the scatter: the circle is judged only on a model that fits
+        found = check_structure(parts) or check_circle(r.real, r.imag, len(parts))
     else:
         phase = None if b is None else b / noise.sigma_phase_rad
         parts = {"magnitude": a / noise.sigma, "phase": phase}

@@ -56,22 +56,23 @@ def choose_topology(sweep, setup, known, domain: str, keep_outliers: bool) -> tu
         problem = FitProblem(sweep, setup, TOPOLOGIES[name], known)
         problem.forced = False  # the model is being chosen, not imposed
         try:
-            trials[name] = (problem, problem.first_pass(domain, keep_outliers))
-        except FitError as exc:
-            failed[name] = exc
-        except (ArithmeticError, ValueError, np.linalg.LinAlgError) as exc:
-            failed[name] = FitError(f"numerical failure: {exc}")
-    for name in _PLAIN:
-        if name in trials:
-            problem, first = trials[name]
-            grown = FitProblem(sweep, setup, TOPOLOGIES[f"{name}-sqrtf"], known)
+            # each candidate with the bench terms it earns: a circuit must not win by
+            # mimicking a bench's delay or floor
+            problem, first = add_bench_terms(
+                *_with(problem, problem.first_pass(domain, keep_outliers))
+            )
+            trials[name] = (problem, first)
+            grown = FitProblem(
+                sweep, setup, TOPOLOGIES[f"{name}-sqrtf"], known, problem.bench.terms
+            )
             grown.forced = False
             params = first.params.copy()
             params.add("ln_skin", value=0.0, min=-9.0, max=9.0)
-            try:
-                trials[grown.topology.name] = (grown, grown.refine(first, params))
-            except (ArithmeticError, ValueError, np.linalg.LinAlgError):
-                pass
+            trials[grown.topology.name] = _with(grown, grown.refine(first, params))
+        except FitError as exc:
+            failed.setdefault(name, exc)
+        except (ArithmeticError, ValueError, np.linalg.LinAlgError) as exc:
+            failed.setdefault(name, FitError(f"numerical failure: {exc}"))
     if not trials:
         raise _no_model_fits(sweep, failed)
     common = np.arange(sweep.points)
@@ -96,9 +97,17 @@ def choose_topology(sweep, setup, known, domain: str, keep_outliers: bool) -> tu
         if rivals:
             text += f"; {_WORDS[rivals[0]]} {_margin_words(score[rivals[0]] - score[winner])}"
     if failed:
-        text += "; " + "; ".join(f"{_WORDS[n]} did not fit ({e.message})" for n, e in failed.items())
+        text += "; " + "; ".join(
+            f"{_WORDS[n]} did not fit ({e.message})" for n, e in failed.items()
+        )
     problem, first = trials[winner]
     return problem, first, text, {n: score[n] - score[winner] for n in score}
+
+
+def _with(problem: FitProblem, first: FirstPass) -> tuple:
+    """The pair, once its resonance is seen to lie inside the sweep."""
+    problem.check_inside(math.exp(first.params["lnf0"].value), "the fitted resonance")
+    return problem, first
 
 
 def _margin_words(delta: float) -> str:

@@ -60,7 +60,8 @@ class Topology:
     def derived(self, setup, f0, q, comps: dict) -> dict:
         out = {"f0_hz": f0, "Q_loaded": q, "loaded_bandwidth_hz": f0 / q}
         r = comps["R"]
-        if nominal(r) > 0:
+        # a sweep with no fixture values cannot split the loop's loss from the circuit's
+        if nominal(r) > 0 and not setup.shape_only:
             out["Q"] = TWO_PI * f0 * comps["L"] / r
             out["bandwidth_hz"] = r / (TWO_PI * comps["L"])
         return out
@@ -175,4 +176,3 @@ def get_topology(name: str) -> Topology:
             f"unknown circuit model {name!r}",
             remedy=f"choose one of: {', '.join(TOPOLOGIES)}, or auto",
         ) from None
-

@@ -110,9 +110,7 @@ def overrides_from_options(opts: dict) -> dict:
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of a table.")
 @plot_options
 @reports_errors
-def fit_command(
-    sweep_file, noise, model, keep_outliers, as_json, plot_path, force, **opts
-):
+def fit_command(sweep_file, noise, model, keep_outliers, as_json, plot_path, force, **opts):
     """Fit a circuit to SWEEP_FILE and print R, L, C, f0, Q and bandwidth.
 
     The model is a series R-L-C, a parallel tank or a coil with self-capacitance
