@@ -21,7 +21,7 @@ from fitkit.adequacy import check_circle, check_structure
 from fitkit.estimate import dip_contrast
 from fitkit.units import format_quantity
 
-_MIN_POINTS_IN_BAND = 5
+MIN_POINTS_IN_BAND = 5
 #: what a sparse band or an open band edge undermines: the width and what follows from it
 _WIDTH = ("R", "Q", "Q_loaded", "bandwidth_hz", "loaded_bandwidth_hz", "R_dynamic", "R_dc")
 _WIDTH += ("k_skin", "R_self")
@@ -113,12 +113,9 @@ def _band_warnings(problem, q: dict, used, values: dict) -> list:
                 _WIDTH,
             )
         )
-    if not q["Q_loaded"].determined:
-        return out
-    f0, ql = q["f0_hz"].value, q["Q_loaded"].value
-    half = f0 / (2.0 * ql)
-    inside = int(np.sum(np.abs(problem.f[used] - f0) <= half))
-    if inside < _MIN_POINTS_IN_BAND:
+    inside = points_in_band(problem, q, used)
+    if inside is not None and inside < MIN_POINTS_IN_BAND:
+        f0, half = q["f0_hz"].value, q["f0_hz"].value / (2.0 * q["Q_loaded"].value)
         out.append(
             (
                 f"only {inside} points lie within the half-power band "
@@ -129,6 +126,14 @@ def _band_warnings(problem, q: dict, used, values: dict) -> list:
             )
         )
     return out
+
+
+def points_in_band(problem, q: dict, used) -> int | None:
+    """How many points kept lie within the loaded half-power band (None: not known)."""
+    if not q["Q_loaded"].determined:
+        return None
+    half = q["f0_hz"].value / (2.0 * q["Q_loaded"].value)
+    return int(np.sum(np.abs(problem.f[used] - q["f0_hz"].value) <= half))
 
 
 def _adequacy(problem, result, noise, used) -> list:

@@ -23,10 +23,11 @@ import math
 from pathlib import Path
 
 import numpy as np
-from uncertainties import correlated_values, covariance_matrix, ufloat, umath
+from uncertainties import correlated_values, covariance_matrix, ufloat
 
+from fitkit.bootstrap import REPLICATES, intervals, needs_bootstrap
 from fitkit.errors import FitError, SetupError
-from fitkit.fit_warnings import fit_warnings
+from fitkit.fit_warnings import MIN_POINTS_IN_BAND, fit_warnings, points_in_band
 from fitkit.model_choice import (
     EVIDENCE,
     add_bench_terms,
@@ -199,6 +200,18 @@ def _to_result(problem, result, first: FirstPass, noise: Noise, judged: list) ->
     redchi = chi2 / max(result.nfree, 1)
     judged = judged + fit_warnings(problem, result, redchi, quantities, first, noise)
     quantities = _mark_doubtful(quantities, judged)
+    inside = points_in_band(problem, quantities, used)
+    if needs_bootstrap(quantities, inside is not None and inside < MIN_POINTS_IN_BAND):
+        quantities = _with_intervals(problem, result, used, noise, quantities)
+        judged.append(
+            (
+                f"the linearised errors are doubtful here (few points in the band or a weak "
+                f"peak): intervals from a seeded parametric bootstrap of {REPLICATES} refits "
+                "are shown, and each uncertainty is at least half that interval; a sweep "
+                "with more points in the half-power band fixes it (fitkit plan says where)",
+                None,
+            )
+        )
     stats = FitStats(
         points=problem.sweep.points,
         used_points=int(used.size),
@@ -231,6 +244,20 @@ def _to_result(problem, result, first: FirstPass, noise: Noise, judged: list) ->
     return fit
 
 
+def _with_intervals(problem, result, used, noise, quantities: dict) -> dict:
+    """68 % bootstrap intervals on every determined value; no error below half of one."""
+    names = [n for n, q in quantities.items() if q.determined]
+    found = intervals(problem, result.params, used, noise, names)
+    out = dict(quantities)
+    for name, (low, high) in found.items():
+        q = out[name]
+        low, high = min(low, q.value), max(high, q.value)
+        out[name] = dataclasses.replace(
+            q, interval=(low, high), stderr=max(q.stderr, 0.5 * (high - low))
+        )
+    return out
+
+
 def _mark_doubtful(quantities: dict, judged: list) -> dict:
     """Each warning that undermines values marks them doubtful, with its reason."""
     out = dict(quantities)
@@ -249,23 +276,11 @@ def _quantities(problem: FitProblem, result, null_dirs) -> tuple:
     names = varied(result.params)
     uv = dict(zip(names, correlated_values([result.params[n].value for n in names], result.covar)))
     val = {n: uv.get(n, p.value) for n, p in result.params.items()}
-    f0 = umath.exp(val["lnf0"])
-    q = umath.exp(val["lnq"])
     scale_open = bool(null_dirs) and not problem.known
     marker = None
-    topology, setup = problem.topology, problem.setup
-    if problem.known:
-        ((name, (value, stderr)),) = problem.known.items()
-        exact_or_uncertain = ufloat(value, stderr) if stderr else value
-        scale = topology.scale_from_known(setup, name, exact_or_uncertain, f0, q)
-    elif scale_open:
+    if scale_open:
         marker = ufloat(math.exp(val["lnscale"]), 1.0, tag="scale left open")
-        scale = marker
-    else:
-        scale = umath.exp(val["lnscale"])
-    extras = {e: umath.exp(val[f"ln_{e}"]) for e in topology.extras}
-    comps = topology.components(setup, f0, q, scale, extras)
-    values = {**comps, **topology.derived(setup, f0, q, comps), **problem.bench.reported(val)}
+    values = problem.reported(val, scale=marker)
     quantities, undetermined, kept = {}, [], {}
     for name in QUANTITIES:
         if name in OPTIONAL and name not in values:

@@ -15,6 +15,7 @@ import math
 import lmfit
 import numpy as np
 from scipy.optimize import least_squares
+from uncertainties import ufloat, umath
 
 from fitkit.errors import FitError
 from fitkit.estimate import Start, estimate_start, predicted, resonance_side
@@ -135,6 +136,22 @@ class FitProblem:
             parts.append(b / phase_sigma)
         out = np.concatenate(parts)
         return np.where(np.isfinite(out), out, 1e6)
+
+    def reported(self, val: dict, scale=None) -> dict:
+        """Every reported value from internal values (plain or ``uncertainties``
+        numbers); ``scale`` stands in for the scale resistance when the sweep leaves it
+        open. A known value pins the scale, its own uncertainty carried on."""
+        f0, q = umath.exp(val["lnf0"]), umath.exp(val["lnq"])
+        if self.known:
+            ((name, (value, stderr)),) = self.known.items()
+            exact_or_uncertain = ufloat(value, stderr) if stderr else value
+            scale = self.topology.scale_from_known(self.setup, name, exact_or_uncertain, f0, q)
+        elif scale is None:
+            scale = umath.exp(val["lnscale"])
+        extras = {e: umath.exp(val[f"ln_{e}"]) for e in self.topology.extras}
+        comps = self.topology.components(self.setup, f0, q, scale, extras)
+        derived = self.topology.derived(self.setup, f0, q, comps)
+        return {**comps, **derived, **self.bench.reported(val)}
 
     # -- parameters and identifiability --------------------------------------------------
     def parameters(self, start: Start) -> tuple:

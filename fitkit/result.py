@@ -70,6 +70,8 @@ class Quantity:
     reason: str = ""
     #: why the value is not to be trusted as printed (empty when it is)
     doubtful: str = ""
+    #: a 68 % interval (low, high) where the linearised error was doubtful
+    interval: tuple | None = None
 
     @property
     def unit(self) -> str:
@@ -83,6 +85,9 @@ class Quantity:
         if not self.determined:
             return "not determined"
         text = format_quantity(self.value, self.unit, self.stderr)
+        if self.interval:
+            low, high = (format_quantity(x, self.unit) for x in self.interval)
+            text += f" (68% interval {low} to {high})"
         return f"{text}  (doubtful)" if self.doubtful else text
 
     def to_dict(self) -> dict:
@@ -92,6 +97,8 @@ class Quantity:
             out["reason"] = self.reason
         if self.doubtful:
             out["doubtful"] = self.doubtful
+        if self.interval:
+            out["interval_68"] = list(self.interval)
         return out
 
 
@@ -218,6 +225,7 @@ class CircuitFit:
                     entry["stderr"],
                     entry.get("reason", ""),
                     entry.get("doubtful", ""),
+                    tuple(entry["interval_68"]) if entry.get("interval_68") else None,
                 )
             stats = FitStats(**data["fit"])
             return cls(
