@@ -97,7 +97,7 @@ def choose_topology(sweep, setup, known, domain: str, keep_outliers: bool) -> tu
         if rivals:
             text += f"; {_WORDS[rivals[0]]} {_margin_words(score[rivals[0]] - score[winner])}"
     if failed:
-        text += "; " + "; ".join(f"{_WORDS[n]} did not fit ({_why(e)})" for n, e in failed.items())
+        text += f"; {' and '.join(_WORDS[n] for n in failed)} cannot fit it"
     problem, first = trials[winner]
     return problem, first, text, {n: score[n] - score[winner] for n in score}
 
@@ -106,13 +106,6 @@ def _with(problem: FitProblem, first: FirstPass) -> tuple:
     """The pair, once its resonance is seen to lie inside the sweep."""
     problem.check_inside(math.exp(first.params["lnf0"].value), "the fitted resonance")
     return problem, first
-
-
-def _why(error: FitError) -> str:
-    if getattr(error, "outside", None):
-        bound = format_quantity(error.bound_hz, "Hz")
-        return f"its resonance would lie {error.outside} {bound}, outside the sweep"
-    return error.message
 
 
 def _margin_words(delta: float) -> str:
