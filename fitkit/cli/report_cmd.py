@@ -12,7 +12,8 @@ from fitkit.cli.base import main, reports_errors
 from fitkit.cli.batch_cmd import fit_settings
 from fitkit.cli.fit_cmd import bench_options
 from fitkit.errors import InputError, refuse_overwrite
-from fitkit.report.html import batch_plots, batch_report, fit_report, write_report
+from fitkit.report.batch_page import batch_plots, batch_report
+from fitkit.report.html import fit_report, write_report
 from fitkit.result import load_fit
 from fitkit.spec import load_spec
 

@@ -1,0 +1,46 @@
+"""Shared looks of every plot: the Agg backend, a frequency axis in engineering units."""
+
+from __future__ import annotations
+
+import io
+
+
+def pyplot():
+    """pyplot on the Agg backend (imported only where plotting happens; no screen needed)."""
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    return plt
+
+
+def frequency_axis(ax, f_min_hz: float, f_max_hz: float, label: str = "frequency") -> None:
+    """A logarithmic frequency axis with ticks labelled in Hz, kHz or MHz ("340 kHz").
+
+    A narrow span gets evenly spaced round ticks (a plain log axis would show two or
+    three); a span over a decade gets 1-2-5 ticks.
+    """
+    from matplotlib import ticker
+
+    ax.set_xscale("log")
+    ax.set_xlim(f_min_hz, f_max_hz)
+    if f_max_hz / f_min_hz > 10:
+        ax.xaxis.set_major_locator(ticker.LogLocator(base=10, subs=(1.0, 2.0, 5.0)))
+    else:
+        ticks = ticker.MaxNLocator(nbins=6, steps=[1, 2, 2.5, 5, 10]).tick_values(
+            f_min_hz, f_max_hz
+        )
+        ax.xaxis.set_major_locator(ticker.FixedLocator(ticks[(ticks >= f_min_hz) & (ticks <= f_max_hz)]))
+    ax.xaxis.set_major_formatter(ticker.EngFormatter(unit="Hz", sep=" "))
+    ax.xaxis.set_minor_formatter(ticker.NullFormatter())
+    ax.set_xlabel(label)
+
+
+def figure_bytes(fig, fmt: str = "png", dpi: int = 110) -> bytes:
+    """The figure as image bytes (PNG or SVG), figure closed."""
+    plt = pyplot()
+    buf = io.BytesIO()
+    fig.savefig(buf, format=fmt, dpi=dpi)
+    plt.close(fig)
+    return buf.getvalue()
