@@ -28,10 +28,11 @@ def frequency_axis(ax, f_min_hz: float, f_max_hz: float, label: str = "frequency
     if f_max_hz / f_min_hz > 10:
         ax.xaxis.set_major_locator(ticker.LogLocator(base=10, subs=(1.0, 2.0, 5.0)))
     else:
-        ticks = ticker.MaxNLocator(nbins=6, steps=[1, 2, 2.5, 5, 10]).tick_values(
+        ticks = ticker.MaxNLocator(nbins=7, steps=[1, 2, 2.5, 5, 10]).tick_values(
             f_min_hz, f_max_hz
         )
-        ax.xaxis.set_major_locator(ticker.FixedLocator(ticks[(ticks >= f_min_hz) & (ticks <= f_max_hz)]))
+        inside = ticks[(ticks >= f_min_hz) & (ticks <= f_max_hz)]
+        ax.xaxis.set_major_locator(ticker.FixedLocator(inside))
     ax.xaxis.set_major_formatter(ticker.EngFormatter(unit="Hz", sep=" "))
     ax.xaxis.set_minor_formatter(ticker.NullFormatter())
     ax.set_xlabel(label)

@@ -201,7 +201,9 @@ def batch_report(summary: dict, settings: dict, plots: dict, spec: Spec | None =
             headers.append(f"{SHORT.get(q, q)} verdict")
     units = _unit_rows(summary, names, columns)
     counts = sorted(summary["counts"].items(), key=lambda c: (ORDER.get(c[0], 3), c[0]))
-    fits = [{"name": u["name"], "uri": data_uri(plots[u["file"]])} for u in units if u["file"] in plots]
+    fits = [
+        {"name": u["name"], "uri": data_uri(plots[u["file"]])} for u in units if u["file"] in plots
+    ]
     return render(
         "batch.html",
         title="fitkit batch report",
@@ -240,7 +242,9 @@ def batch_plots(rows: list[dict], settings: dict) -> dict:
     return plots
 
 
-def write_batch_report(out_dir: Path, summary: dict, settings: dict, spec: Spec | None = None) -> Path:
+def write_batch_report(
+    out_dir: Path, summary: dict, settings: dict, spec: Spec | None = None
+) -> Path:
     """Write ``report.html`` for a batch into its output folder (the batch checked it)."""
     page = batch_report(summary, settings, batch_plots(summary["rows"], settings), spec)
     return write_report(Path(out_dir) / "report.html", page, force=True)
