@@ -6,11 +6,11 @@ this module gathers what they show. The pages hold no scripts and load nothing f
 
 from __future__ import annotations
 
-import tempfile
 from pathlib import Path
 
 from fitkit import __version__
 from fitkit.errors import refuse_overwrite
+from fitkit.report.axes import figure_bytes
 from fitkit.report.pages import data_uri, render
 from fitkit.result import QUANTITIES, CircuitFit
 from fitkit.spec import Spec, judge
@@ -20,10 +20,9 @@ def plot_png(fit: CircuitFit) -> bytes | None:
     """The fit plot (data, model, residuals) as PNG bytes; None when the fit has no curve."""
     if fit.model_curve is None:
         return None
-    from fitkit.report.plots import plot_fit
+    from fitkit.report.plots import fit_figure
 
-    with tempfile.TemporaryDirectory() as tmp:
-        return plot_fit(fit, Path(tmp) / "fit.png").read_bytes()
+    return figure_bytes(fit_figure(fit))
 
 
 def split_verdict(text: str) -> tuple[str, str]:

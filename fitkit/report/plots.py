@@ -123,3 +123,60 @@ def plot_fit(fit: CircuitFit, path: str | Path) -> Path:
     fig.savefig(out, dpi=110)
     plt.close(fig)
     return out
+
+
+def drift_figure(unit: CircuitFit, reference: CircuitFit):
+    """The unit's sweep and fit overlaid on its reference's (those that kept a curve).
+
+    Returns
+    -------
+    matplotlib.figure.Figure or None
+        Magnitude (and phase when both are complex) against frequency with both
+        resonances marked; None when neither fit holds a sweep.
+    """
+    drawn = [(f, name, style) for f, name, style in (
+        (reference, "reference", {"color": "0.45", "ls": "--", "marker": "s"}),
+        (unit, "now", {"color": "C3", "ls": "-", "marker": "."}),
+    ) if f.model_curve is not None]  # fmt: skip
+    if not drawn:
+        return None
+    plt = pyplot()
+    has_phase = all(np.iscomplexobj(f.model_curve[1]) for f, _, _ in drawn)
+    fig, axes = plt.subplots(2 if has_phase else 1, 1, sharex=True, squeeze=False,
+                             figsize=(9.0, 5.6 if has_phase else 3.6))  # fmt: skip
+    axes = axes[:, 0]
+    ylabel, in_db, resid_kind = magnitude_view(drawn[-1][0])
+    f_min = min(float(f.model_curve[0][0]) for f, _, _ in drawn)
+    f_max = max(float(f.model_curve[0][-1]) for f, _, _ in drawn)
+    for fit, name, style in drawn:
+        freq, data, model = fit.model_curve
+        mag_d, mag_m = np.abs(data), np.abs(model)
+        if in_db:
+            mag_d, mag_m = 20 * np.log10(mag_d), 20 * np.log10(mag_m)
+        f0 = fit.quantities["f0_hz"]
+        axes[0].plot(freq, mag_d, style["marker"], ms=3, color=style["color"], alpha=0.6,
+                     label=f"{name}: measured")  # fmt: skip
+        axes[0].plot(freq, mag_m, ls=style["ls"], color=style["color"], lw=1.5,
+                     label=f"{name}: fitted\nf0 = {f0.text()}")  # fmt: skip
+        if has_phase:
+            axes[1].plot(freq, np.degrees(np.angle(data)), style["marker"], ms=3,
+                         color=style["color"], alpha=0.6)  # fmt: skip
+            axes[1].plot(freq, np.degrees(np.angle(model)), ls=style["ls"],
+                         color=style["color"], lw=1.5)  # fmt: skip
+        for ax in axes:
+            ax.axvline(f0.value, color=style["color"], ls=":", lw=1)
+    if resid_kind == "%" and not in_db:
+        axes[0].set_yscale("log")
+    axes[0].set_ylabel(ylabel)
+    if has_phase:
+        axes[1].set_ylabel("phase (deg)")
+    for ax in axes:
+        ax.grid(True, which="both", alpha=0.3)
+    axes[0].legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), fontsize=8, frameon=False)
+    frequency_axis(axes[-1], f_min, f_max)
+    axes[0].set_title(
+        f"{Path(unit.sweep['source']).name} against {Path(reference.sweep['source']).name}",
+        fontsize=10,
+    )
+    fig.subplots_adjust(left=0.1, right=0.66, top=0.92, bottom=0.12, hspace=0.08)
+    return fig
