@@ -111,3 +111,26 @@ def test_batch_report_checksums_are_collapsed_and_file_names_escaped(reader, kit
     sha = hashlib.sha256((KITS / "kit-07.csv").read_bytes()).hexdigest()
     assert sha not in seen["text"]  # inside a closed <details>: not shown until opened
     assert sha in kit_batch.read_text(encoding="utf-8")
+
+
+def test_drift_page_overlays_both_sweeps_and_shows_changes_with_uncertainties(reader, tmp_path):  # noqa: F811
+    drift = KITS.parent / "drift"
+    page = tmp_path / "drift.html"
+    result = run("report", drift / "drifted.csv", "--against", drift / "reference.csv",
+                 "--out", page)  # fmt: skip
+    assert result.exit_code == 0, result.output
+    seen = fits_on_screen_and_paper(reader, page, tmp_path)
+    text = " ".join(seen["text"].split())
+    # the scenario (make_kits.py, sample_sweeps/README.md): C = 180 pF grew by 6 %
+    assert re.search(r"C 179\.9\d+ pF \+/- 0\.0\d+ pF 190\.9\d+ pF \+/- 0\.0\d+ pF "
+                     r"10\.9\d+ pF \+/- 0\.0\d+ pF 6\.0\d+ \+/- 0\.0\d+ %", text)  # fmt: skip
+    assert "C has grown by about 6.1%" in text
+    assert "reference.csv" in text and "drifted.csv" in text
+    assert (seen["images"], seen["decoded"]) == (1, 1)
+
+
+def test_drift_page_needs_a_shared_value(tmp_path):
+    result = run("report", KITS / "kit-01.csv", "--against", KITS / "kit-10.csv",
+                 "--out", tmp_path / "d.html")  # fmt: skip
+    assert result.exit_code == 2 and "kit-10.csv" in result.output
+    assert not (tmp_path / "d.html").exists()

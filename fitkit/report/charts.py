@@ -20,7 +20,12 @@ MARKS = {
 
 
 def batch_chart(units: list[tuple[str, float, float | None, str]], limit: Limit, k: float) -> bytes:
-    """SVG of one judged value over the batch.
+    """:func:`chart_figure` as SVG bytes."""
+    return figure_bytes(chart_figure(units, limit, k), "svg")
+
+
+def chart_figure(units: list[tuple[str, float, float | None, str]], limit: Limit, k: float):
+    """One judged value over the batch.
 
     Parameters
     ----------
@@ -33,8 +38,9 @@ def batch_chart(units: list[tuple[str, float, float | None, str]], limit: Limit,
 
     Returns
     -------
-    bytes
-        The chart as SVG.
+    matplotlib.figure.Figure
+        One row per unit: the value, a bar of +/- k u, a marker by verdict; the limits
+        dashed, the nominal dotted.
     """
     plt = pyplot()
     values = [v for _, v, _, _ in units]
@@ -69,4 +75,4 @@ def batch_chart(units: list[tuple[str, float, float | None, str]], limit: Limit,
     ax.grid(True, axis="x", alpha=0.3)
     ax.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), fontsize=8, frameon=False)
     fig.tight_layout()
-    return figure_bytes(fig, "svg")
+    return fig
