@@ -17,15 +17,15 @@ KNOWN_FIELDS = {"reference", "reference_u", "value", "value_u", "change", "chang
                 "relative", "z", "significant"}  # fmt: skip
 
 
-def _plain(value, unit: str = "") -> str:
+def plain_text(value, unit: str = "") -> str:
     if isinstance(value, bool):
         return "yes" if value else "no"
     if isinstance(value, (int, float)):
         return format_quantity(float(value), unit)
     if isinstance(value, (list, tuple)):
-        return "; ".join(_plain(v, unit) for v in value)
+        return "; ".join(plain_text(v, unit) for v in value)
     if isinstance(value, dict):
-        return "; ".join(f"{k}: {_plain(v, unit)}" for k, v in value.items())
+        return "; ".join(f"{k}: {plain_text(v, unit)}" for k, v in value.items())
     return "" if value is None else str(value)
 
 
@@ -47,7 +47,7 @@ def change_rows(changes: dict) -> tuple[list[str], list[dict]]:
                 "relative": format_quantity(c["relative"] * 100, "", rel_u or None) + " %",
                 "z": "" if z is None else f"{z:+.1f}",
                 "changed": bool(c.get("significant")),
-                "extra": [_plain(c.get(k), unit) for k in extra],
+                "extra": [plain_text(c.get(k), unit) for k in extra],
             }
         )
     return extra, rows
@@ -96,7 +96,7 @@ def drift_report(unit: CircuitFit, reference: CircuitFit, result: dict) -> str:
         rows=rows,
         reading=result.get("reading", []),
         correction=[correction] if isinstance(correction, str) else correction,
-        others=[(k, _plain(v)) for k, v in others.items()],
+        others=[(k, plain_text(v)) for k, v in others.items()],
         warnings=warnings,
         doubtful=doubtful,
     )
