@@ -134,3 +134,18 @@ def write_report(path: str | Path, page: str, *, force: bool = False) -> Path:
     refuse_overwrite(out, "report", force)
     out.write_text(page, encoding="utf-8")
     return out
+
+
+def fit_fragment(fit: CircuitFit) -> str:
+    """A fit as one HTML table, for a notebook cell (``CircuitFit._repr_html_``)."""
+    s = fit.stats
+    verdict = "converged" if s.converged else "did NOT converge"
+    return render(
+        "circuit_fit.html",
+        model=model_text(fit),
+        source=fit.sweep.get("source", ""),
+        rows=fit_rows(fit),
+        stats=f"{s.used_points} of {s.points} points, reduced chi-square {s.redchi:.2f}, "
+        f"{verdict}; noise {s.noise}",
+        warnings=list(s.warnings),
+    )
