@@ -36,7 +36,8 @@ def test_console_and_notebook_show_the_values_with_units():
     assert "<b>bench</b>" not in page and "&lt;b&gt;bench&lt;/b&gt; 3.csv" in page
     parser = Cells()
     parser.feed(page)
-    pairs = dict(zip(parser.cells[::2], parser.cells[1::2]))
+    cells = [c.strip() for c in parser.cells]
+    pairs = dict(zip(cells[::2], cells[1::2]))
     # README's sample output: L 220.079 uH +/- 0.056 uH, Q 69.26 +/- 0.38
     assert pairs["L"] == fit["L"].text() and pairs["L"].endswith(" uH")
     assert pairs["Q (circuit, unloaded)"] == fit["Q"].text()
