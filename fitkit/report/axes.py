@@ -32,10 +32,23 @@ def frequency_axis(ax, f_min_hz: float, f_max_hz: float, label: str = "frequency
             f_min_hz, f_max_hz
         )
         inside = ticks[(ticks >= f_min_hz) & (ticks <= f_max_hz)]
-        ax.xaxis.set_major_locator(ticker.FixedLocator(inside))
+        ax.xaxis.set_major_locator(ticker.FixedLocator(_spaced(inside, f_min_hz, f_max_hz)))
     ax.xaxis.set_major_formatter(ticker.EngFormatter(unit="Hz", sep=" "))
     ax.xaxis.set_minor_formatter(ticker.NullFormatter())
     ax.set_xlabel(label)
+
+
+def _spaced(ticks, f_min_hz: float, f_max_hz: float, slots: int = 8) -> list:
+    """Drop ticks that would sit closer than 1/slots of the log span to the one before
+    (on a log axis the round ticks crowd towards the top)."""
+    import math
+
+    least = math.log10(f_max_hz / f_min_hz) / slots
+    kept: list = []
+    for t in ticks:
+        if not kept or math.log10(t / kept[-1]) >= least:
+            kept.append(float(t))
+    return kept
 
 
 def figure_bytes(fig, fmt: str = "png", dpi: int = 110) -> bytes:

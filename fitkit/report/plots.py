@@ -111,7 +111,7 @@ def fit_figure(fit: CircuitFit):
         bbox={"boxstyle": "round", "facecolor": "white", "edgecolor": "0.6"},
     )  # fmt: skip
     top.set_title(f"{Path(fit.sweep['source']).name}: {fit.topology} fit", fontsize=10)
-    fig.subplots_adjust(left=0.12, right=0.66, top=0.94, bottom=0.09, hspace=0.1)
+    fig.subplots_adjust(left=0.12, right=0.64, top=0.94, bottom=0.09, hspace=0.1)
     return fig
 
 
@@ -178,5 +178,5 @@ def drift_figure(unit: CircuitFit, reference: CircuitFit):
         f"{Path(unit.sweep['source']).name} against {Path(reference.sweep['source']).name}",
         fontsize=10,
     )
-    fig.subplots_adjust(left=0.1, right=0.66, top=0.92, bottom=0.12, hspace=0.08)
+    fig.subplots_adjust(left=0.1, right=0.64, top=0.92, bottom=0.12, hspace=0.08)
     return fig
