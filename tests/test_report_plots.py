@@ -119,3 +119,16 @@ def test_batch_chart_tells_verdicts_apart_by_shape_and_marks_the_limits():
     assert vertical == pytest.approx([2.09, 2.2, 2.31])  # limits and nominal, in nF
     assert ax.get_xlabel().startswith("C (nF)")
     assert [t.get_text() for t in ax.get_yticklabels()] == ["a", "b", "c"]
+
+
+def test_every_template_ships_with_the_package():
+    import fnmatch
+    import tomllib
+
+    root = Path(__file__).resolve().parent.parent
+    data = tomllib.loads((root / "pyproject.toml").read_text())
+    globs = data["tool"]["setuptools"]["package-data"]["fitkit.report"]
+    templates = root / "fitkit" / "report" / "templates"
+    files = [p.relative_to(templates.parent).as_posix() for p in templates.iterdir()]
+    assert files and all(any(fnmatch.fnmatch(f, g) for g in globs) for f in files), files
+    assert "jinja2>=3.1" in data["project"]["dependencies"]
