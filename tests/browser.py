@@ -17,7 +17,7 @@ SCREEN = {"width": 1280, "height": 800}
 A4_PRINT = {"width": 703, "height": 1000}
 
 
-def _missing(what: str) -> None:
+def missing(what: str) -> None:
     if os.environ.get("CI") == "true":
         pytest.fail(f"{what} is missing in CI; .ci/run installs it")
     pytest.skip(f"{what} is not installed; the pages are not rendered")
@@ -26,7 +26,7 @@ def _missing(what: str) -> None:
 def chromium_path() -> str:
     found = shutil.which("chromium") or shutil.which("chromium-browser")
     if not found:
-        _missing("chromium (Debian package 'chromium')")
+        missing("chromium (Debian package 'chromium')")
     return found
 
 
@@ -64,18 +64,3 @@ class Reader:
             return seen
         finally:
             context.close()
-
-
-@pytest.fixture(scope="module")
-def reader():
-    path = chromium_path()
-    try:
-        from playwright.sync_api import sync_playwright
-    except ImportError:
-        _missing("the playwright python package (pip install '.[test]')")
-    with sync_playwright() as pw:
-        browser = pw.chromium.launch(executable_path=path, args=["--no-sandbox"])
-        try:
-            yield Reader(browser)
-        finally:
-            browser.close()

@@ -29,8 +29,11 @@ def handbook_impedance(name: str, f, truth: dict) -> np.ndarray:
 CASES = {
     "series": (SeriesRLCModel, {"R": 6.8, "L": 220e-6, "C": 1e-9}, (250e3, 450e3)),
     "tank": (TankModel, {"R": 12.0, "L": 330e-6, "C": 470e-12}, (340e3, 470e3)),
-    "coil": (CoilModel, {"R": 4.0, "L": 100e-6, "C": 2.2e-9, "C_self": 8e-12},
-             (200e3, 900e3)),  # fmt: skip
+    "coil": (
+        CoilModel,
+        {"R": 4.0, "L": 100e-6, "C": 2.2e-9, "C_self": 8e-12},
+        (200e3, 900e3),
+    ),  # fmt: skip
 }
 
 

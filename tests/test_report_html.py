@@ -14,7 +14,7 @@ import pytest
 from click.testing import CliRunner
 
 from fitkit.cli import main
-from tests.browser import A4_PRINT, SCREEN, reader  # noqa: F401  (a fixture)
+from tests.browser import A4_PRINT, SCREEN
 
 KITS = Path(__file__).resolve().parent.parent / "sample_sweeps" / "kits"
 SPEC = KITS / "spec.toml"
@@ -26,7 +26,7 @@ def run(*args):
     return CliRunner().invoke(main, [str(a) for a in args], catch_exceptions=False)
 
 
-def fits_on_screen_and_paper(reader, page: Path, tmp_path: Path) -> dict:  # noqa: F811
+def fits_on_screen_and_paper(reader, page: Path, tmp_path: Path) -> dict:
     """The page at 1280 px and at A4 print width: no horizontal overflow at either."""
     seen = reader.look(page, tmp_path)
     assert seen["scroll_width"] <= seen["inner_width"] == SCREEN["width"]
@@ -37,7 +37,7 @@ def fits_on_screen_and_paper(reader, page: Path, tmp_path: Path) -> dict:  # noq
     return seen
 
 
-def test_single_fit_report_shows_values_limits_verdicts_plot_and_checksum(reader, tmp_path):  # noqa: F811
+def test_single_fit_report_shows_values_limits_verdicts_plot_and_checksum(reader, tmp_path):
     page = tmp_path / "kit-04.html"
     result = run("report", KITS / "kit-04.csv", "--spec", SPEC, "--out", page)
     assert result.exit_code == 0, result.output
@@ -79,7 +79,9 @@ def kit_batch(tmp_path_factory):
 
 
 def test_batch_report_puts_failures_first_with_limits_charts_and_short_names(
-    reader, kit_batch, tmp_path  # noqa: F811
+    reader,
+    kit_batch,
+    tmp_path,
 ):
     seen = fits_on_screen_and_paper(reader, kit_batch, tmp_path)
     text = seen["text"]
@@ -104,7 +106,7 @@ def test_batch_report_puts_failures_first_with_limits_charts_and_short_names(
     assert "Circle: pass; diamond: undecided; cross: fail" in text
 
 
-def test_batch_report_checksums_are_collapsed_and_file_names_escaped(reader, kit_batch, tmp_path):  # noqa: F811
+def test_batch_report_checksums_are_collapsed_and_file_names_escaped(reader, kit_batch, tmp_path):
     seen = reader.look(kit_batch, tmp_path, javascript=True)
     assert seen["hacked"] is None and seen["scripts"] == 0  # the onerror in the name never ran
     assert HOSTILE in seen["text"]  # shown as text, as the file is named
@@ -113,7 +115,7 @@ def test_batch_report_checksums_are_collapsed_and_file_names_escaped(reader, kit
     assert sha in kit_batch.read_text(encoding="utf-8")
 
 
-def test_drift_page_overlays_both_sweeps_and_shows_changes_with_uncertainties(reader, tmp_path):  # noqa: F811
+def test_drift_page_overlays_both_sweeps_and_shows_changes_with_uncertainties(reader, tmp_path):
     drift = KITS.parent / "drift"
     page = tmp_path / "drift.html"
     result = run("report", drift / "drifted.csv", "--against", drift / "reference.csv",

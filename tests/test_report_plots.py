@@ -123,7 +123,11 @@ def test_batch_chart_tells_verdicts_apart_by_shape_and_marks_the_limits():
 
 def test_every_template_ships_with_the_package():
     import fnmatch
-    import tomllib
+
+    try:
+        import tomllib
+    except ImportError:  # Python 3.10
+        import tomli as tomllib
 
     root = Path(__file__).resolve().parent.parent
     data = tomllib.loads((root / "pyproject.toml").read_text())

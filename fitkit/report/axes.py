@@ -51,6 +51,22 @@ def _spaced(ticks, f_min_hz: float, f_max_hz: float, slots: int = 8) -> list:
     return kept
 
 
+def save_figure(fig, path, dpi: int = 110):
+    """Write the figure (PNG, or any format matplotlib knows by the suffix), close it.
+
+    Returns
+    -------
+    pathlib.Path
+    """
+    from pathlib import Path
+
+    plt = pyplot()
+    out = Path(path)
+    fig.savefig(out, dpi=dpi)
+    plt.close(fig)
+    return out
+
+
 def figure_bytes(fig, fmt: str = "png", dpi: int = 110) -> bytes:
     """The figure as image bytes (PNG or SVG), figure closed."""
     plt = pyplot()

@@ -37,6 +37,4 @@ def data_uri(image: bytes | None, mime: str = "image/png") -> str | None:
 def render(template: str, **context) -> str:
     """Render a template of ``fitkit/report/templates`` with the page's common facts."""
     made = datetime.datetime.now(datetime.timezone.utc).strftime("%Y-%m-%d %H:%M UTC")
-    return environment().get_template(template).render(
-        version=__version__, made=made, **context
-    )
+    return environment().get_template(template).render(version=__version__, made=made, **context)

@@ -10,7 +10,7 @@ from pathlib import Path
 
 import numpy as np
 
-from fitkit.report.axes import frequency_axis, pyplot
+from fitkit.report.axes import frequency_axis, pyplot, save_figure
 from fitkit.result import CircuitFit
 
 #: the values written in the box beside a fit plot
@@ -117,12 +117,7 @@ def fit_figure(fit: CircuitFit):
 
 def plot_fit(fit: CircuitFit, path: str | Path) -> Path:
     """Write a PNG (or any format matplotlib knows by the suffix) of :func:`fit_figure`."""
-    plt = pyplot()
-    fig = fit_figure(fit)
-    out = Path(path)
-    fig.savefig(out, dpi=110)
-    plt.close(fig)
-    return out
+    return save_figure(fit_figure(fit), path, dpi=110)
 
 
 def drift_figure(unit: CircuitFit, reference: CircuitFit):

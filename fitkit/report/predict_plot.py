@@ -11,7 +11,7 @@ import numpy as np
 
 from fitkit.chain import response_db
 from fitkit.predict import Prediction, value_and_error
-from fitkit.report.axes import frequency_axis, pyplot
+from fitkit.report.axes import frequency_axis, pyplot, save_figure
 from fitkit.units import format_quantity
 
 #: height of one row of labels, as a share of the axes
@@ -96,9 +96,4 @@ def prediction_figure(p: Prediction):
 
 def plot_prediction(p: Prediction, path: str | Path) -> Path:
     """Write :func:`prediction_figure` as PNG (or any format matplotlib knows by suffix)."""
-    plt = pyplot()
-    fig = prediction_figure(p)
-    out = Path(path)
-    fig.savefig(out, dpi=120)
-    plt.close(fig)
-    return out
+    return save_figure(prediction_figure(p), path, dpi=120)
