@@ -15,7 +15,7 @@ import pytest
 from fitkit.chain import chain_from_setup
 from fitkit.predict import Carrier, predict, values_from_fit
 from fitkit.report.axes import pyplot
-from fitkit.report.charts import chart_figure
+from fitkit.report.charts import batch_chart, chart_figure
 from fitkit.report.plots import drift_figure, fit_figure, half_power_band
 from fitkit.report.predict_plot import prediction_figure
 from fitkit.spec import Limit
@@ -136,3 +136,14 @@ def test_every_template_ships_with_the_package():
     files = [p.relative_to(templates.parent).as_posix() for p in templates.iterdir()]
     assert files and all(any(fnmatch.fnmatch(f, g) for g in globs) for f in files), files
     assert "jinja2>=3.1" in data["project"]["dependencies"]
+
+
+def test_file_names_with_dollars_are_drawn_as_written(series_fit):
+    # matplotlib reads text between two $ as math; "\frac" alone there cannot be drawn
+    name = r"kit $\frac$ 2.csv"
+    svg = batch_chart([(name, 1e-9, 1e-12, "fail")], Limit("C", "C", "F", 0.9e-9, 0.95e-9), 2.0)
+    assert svg.startswith(b"<?xml")
+    fit = replace(series_fit, sweep={**series_fit.sweep, "source": f"/bench/{name}"})
+    fig = fit_figure(fit)
+    fig.canvas.draw()  # would raise on a math parse error
+    assert fig.axes[0].get_title().startswith(r"kit \$\frac\$ 2.csv")

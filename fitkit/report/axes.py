@@ -15,6 +15,11 @@ def pyplot():
     return plt
 
 
+def literal(text: str) -> str:
+    """Text shown as written: a ``$`` in a file name would start matplotlib's math mode."""
+    return str(text).replace("$", r"\$")
+
+
 def frequency_axis(ax, f_min_hz: float, f_max_hz: float, label: str = "frequency") -> None:
     """A logarithmic frequency axis with ticks labelled in Hz, kHz or MHz ("340 kHz").
 

@@ -7,10 +7,12 @@ from __future__ import annotations
 
 import math
 
-from fitkit.report.axes import figure_bytes, pyplot
+from fitkit.report.axes import figure_bytes, literal, pyplot
 from fitkit.spec import Limit
 from fitkit.units import engineering_scale
 
+#: above this many units, a chart names only the units that did not pass
+DENSE = 80
 #: verdict word -> (marker, face colour, edge colour, legend text)
 MARKS = {
     "pass": ("o", "#176317", "#176317", "pass"),
@@ -46,7 +48,8 @@ def chart_figure(units: list[tuple[str, float, float | None, str]], limit: Limit
     values = [v for _, v, _, _ in units]
     anchors = [x for x in (limit.nominal, limit.low, limit.high) if x is not None] + values
     scale, prefix = engineering_scale(max(abs(x) for x in anchors)) if limit.unit else (1.0, "")
-    height = 1.3 + 0.24 * len(units)
+    dense = len(units) > DENSE
+    height = min(1.3 + (0.1 if dense else 0.24) * len(units), 30.0)
     fig, ax = plt.subplots(figsize=(7.5, height))
     shown = set()
     for row, (_, value, u, word) in enumerate(units):
@@ -67,7 +70,9 @@ def chart_figure(units: list[tuple[str, float, float | None, str]], limit: Limit
             label = None if text in shown else text
             ax.axvline(edge_value / scale, color="0.2", ls=style, lw=1, label=label)
             shown.add(text)
-    ax.set_yticks(range(len(units)), [name for name, _, _, _ in units], fontsize=8)
+    # a large batch names only the units that need a look
+    names = [literal(n) if not dense or w != "pass" else "" for n, _, _, w in units]
+    ax.set_yticks(range(len(units)), names, fontsize=8)
     ax.set_ylim(len(units) - 0.5, -0.5)
     unit_text = f" ({prefix}{limit.unit})" if limit.unit else ""
     ax.set_xlabel(f"{limit.name.replace('_', ' ')}{unit_text}, bars +/- {k:g} u", fontsize=9)

@@ -10,7 +10,7 @@ from pathlib import Path
 
 import numpy as np
 
-from fitkit.report.axes import frequency_axis, pyplot, save_figure
+from fitkit.report.axes import frequency_axis, literal, pyplot, save_figure
 from fitkit.result import CircuitFit
 
 #: the values written in the box beside a fit plot
@@ -110,7 +110,7 @@ def fit_figure(fit: CircuitFit):
         1.01, 1.0, values_box(fit), transform=top.transAxes, va="top", ha="left", fontsize=8,
         bbox={"boxstyle": "round", "facecolor": "white", "edgecolor": "0.6"},
     )  # fmt: skip
-    top.set_title(f"{Path(fit.sweep['source']).name}: {fit.topology} fit", fontsize=10)
+    top.set_title(literal(f"{Path(fit.sweep['source']).name}: {fit.topology} fit"), fontsize=10)
     fig.subplots_adjust(left=0.12, right=0.64, top=0.94, bottom=0.09, hspace=0.1)
     return fig
 
@@ -169,9 +169,7 @@ def drift_figure(unit: CircuitFit, reference: CircuitFit):
         ax.grid(True, which="both", alpha=0.3)
     axes[0].legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), fontsize=8, frameon=False)
     frequency_axis(axes[-1], f_min, f_max)
-    axes[0].set_title(
-        f"{Path(unit.sweep['source']).name} against {Path(reference.sweep['source']).name}",
-        fontsize=10,
-    )
+    names = (Path(f.sweep["source"]).name for f in (unit, reference))
+    axes[0].set_title(literal(" against ".join(names)), fontsize=10)
     fig.subplots_adjust(left=0.1, right=0.64, top=0.92, bottom=0.12, hspace=0.08)
     return fig
