@@ -64,3 +64,15 @@ class Reader:
             return seen
         finally:
             context.close()
+
+    def print_pdf(self, page_file: Path, out: Path) -> Path:
+        """Print the page on A4 as Chromium would; return the PDF written."""
+        context = self.browser.new_context(java_script_enabled=False)
+        try:
+            page = context.new_page()
+            page.goto(Path(page_file).resolve().as_uri())
+            pdf = out / f"{Path(page_file).stem}-A4.pdf"
+            page.pdf(path=str(pdf), format="A4", prefer_css_page_size=True)
+            return pdf
+        finally:
+            context.close()

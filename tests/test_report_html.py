@@ -34,6 +34,8 @@ def fits_on_screen_and_paper(reader, page: Path, tmp_path: Path) -> dict:
     assert printed["scroll_width"] <= printed["inner_width"] == A4_PRINT["width"]
     assert seen["screenshot"].stat().st_size > 10_000
     assert printed["screenshot"].stat().st_size > 10_000
+    pdf = reader.print_pdf(page, tmp_path)
+    assert pdf.read_bytes().startswith(b"%PDF") and pdf.stat().st_size > 10_000
     return seen
 
 
@@ -136,3 +138,6 @@ def test_drift_page_needs_a_shared_value(tmp_path):
                  "--out", tmp_path / "d.html")  # fmt: skip
     assert result.exit_code == 2 and "kit-10.csv" in result.output
     assert not (tmp_path / "d.html").exists()
+    result = run("report", KITS / "kit-01.csv", "--against", KITS / "kit-02.csv",
+                 "--spec", SPEC, "--out", tmp_path / "d.html")  # fmt: skip
+    assert result.exit_code == 2 and "no --spec" in result.output

@@ -44,6 +44,11 @@ def report_command(source, out_file, spec_file, reference, noise, force, **opts)
     """
     refuse_overwrite(out_file, "report", force)
     src = Path(source)
+    if reference and (spec_file or src.is_dir()):
+        raise InputError(
+            "--against makes a drift page of one unit; it takes no --spec and no batch folder",
+            remedy="give a sweep or a saved fit as SOURCE, and leave out --spec",
+        )
     settings = fit_settings(opts, noise)
     if src.is_dir():
         page = _batch_page(src)
