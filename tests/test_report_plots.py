@@ -147,3 +147,19 @@ def test_file_names_with_dollars_are_drawn_as_written(series_fit):
     fig = fit_figure(fit)
     fig.canvas.draw()  # would raise on a math parse error
     assert fig.axes[0].get_title().startswith(r"kit \$\frac\$ 2.csv")
+
+
+@pytest.mark.parametrize(
+    "span, expected",
+    [((10.2e6, 11.2e6), ("10.2 MHz", "10.6 MHz", "11 MHz")),
+     ((1e3, 1e6), ("1 kHz", "10 kHz", "100 kHz", "1 MHz")),
+     ((30.0, 90.0), ("30 Hz", "40 Hz", "60 Hz"))],
+)  # fmt: skip
+def test_frequency_axis_labels_round_ticks_in_engineering_units(span, expected):
+    from fitkit.report.axes import frequency_axis
+
+    fig, ax = pyplot().subplots()
+    frequency_axis(ax, *span)
+    texts = [t for t in tick_texts(ax) if t]
+    assert set(expected) <= set(texts), texts
+    assert len(texts) >= 3 and ax.get_xlabel() == "frequency"
