@@ -42,3 +42,20 @@ def test_console_and_notebook_show_the_values_with_units():
     assert pairs["L"] == fit["L"].text() and pairs["L"].endswith(" uH")
     assert pairs["Q (circuit, unloaded)"] == fit["Q"].text()
     assert "reduced chi-square" in page
+
+
+def test_a_doubtful_mark_is_shown_beside_its_value():
+    from dataclasses import dataclass
+
+    from fitkit.report.plots import values_box
+    from fitkit.result import Quantity
+
+    @dataclass(frozen=True)
+    class Marked(Quantity):  # the fit core's Quantity gains this field
+        doubtful: str = ""
+
+    fit, _ = fit_file(SWEEP)
+    q = fit["L"]
+    fit.quantities["L"] = Marked(q.name, q.value, q.stderr, doubtful="profile differs")
+    assert "(doubtful: profile differs)" in fit._repr_html_()
+    assert f"L = {q.text()} (doubtful)" in values_box(fit)

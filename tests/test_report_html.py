@@ -141,3 +141,42 @@ def test_drift_page_needs_a_shared_value(tmp_path):
     result = run("report", KITS / "kit-01.csv", "--against", KITS / "kit-02.csv",
                  "--spec", SPEC, "--out", tmp_path / "d.html")  # fmt: skip
     assert result.exit_code == 2 and "no --spec" in result.output
+
+
+def test_pages_show_warnings_doubtful_marks_and_the_correction(reader, kit_batch, tmp_path):
+    """Fields the fit core and the drift diagnosis may add are rendered when present."""
+    import json
+
+    from fitkit.report.batch_page import batch_report
+    from fitkit.report.drift_page import drift_report
+    from fitkit.workflow import fit_file
+
+    summary = json.loads((kit_batch.parent / "results.json").read_text())
+    row = next(r for r in summary["rows"] if r["file"].endswith("kit-01.csv"))
+    row["warnings"] = "the residuals show a pattern"
+    row["L_doubtful"] = "the interval rests on a linearised covariance"
+    page = tmp_path / "batch-marks.html"
+    page.write_text(batch_report(summary, summary["settings"], {}), encoding="utf-8")
+    text = " ".join(reader.look(page, tmp_path)["text"].split())
+    assert "warning: the residuals show a pattern" in text
+    assert "doubtful: the interval rests on a linearised covariance" in text
+
+    drift = KITS.parent / "drift"
+    now, ref = fit_file(drift / "drifted.csv")[0], fit_file(drift / "reference.csv")[0]
+    result = {
+        "changes": {"C": {"reference": 180e-12, "reference_u": 4e-14, "value": 191e-12,
+                          "value_u": 4e-14, "change": 11e-12, "change_u": 6e-14,
+                          "relative": 0.061, "z": 183.0, "significant": True,
+                          "absolute": "11 pF"}},
+        "reading": ["C has grown by about 6.1%"],
+        "correction": "remove about 11 pF: fit a 180 pF capacitor in its place",
+        "doubtful": {"L": "leaks from C"},
+    }  # fmt: skip
+    page = tmp_path / "drift-marks.html"
+    page.write_text(drift_report(now, ref, result), encoding="utf-8")
+    seen = reader.look(page, tmp_path)
+    text = " ".join(seen["text"].split())
+    assert "Correction remove about 11 pF: fit a 180 pF capacitor in its place" in text
+    assert "absolute" in seen["headers"] and "11 pF" in text
+    assert "doubtful L: leaks from C" in text
+    assert seen["scroll_width"] <= seen["inner_width"]
