@@ -140,6 +140,25 @@ class CircuitFit:
     def __getitem__(self, name: str) -> Quantity:
         return self.quantities[name]
 
+    def __str__(self) -> str:
+        """The table ``fitkit fit`` prints."""
+        from fitkit.report.table import fit_table
+
+        return fit_table(self)
+
+    def __repr__(self) -> str:
+        shown = ", ".join(
+            f"{n}={self.quantities[n].text()}" for n in (*COMPONENTS, "f0_hz", "Q")
+            if n in self.quantities
+        )  # fmt: skip
+        return f"<CircuitFit {self.topology}: {shown}>"
+
+    def _repr_html_(self) -> str:
+        """An HTML table of the values, for a notebook."""
+        from fitkit.report.html import fit_fragment
+
+        return fit_fragment(self)
+
     def correlated(self) -> dict:
         """Correlated ``uncertainties`` values of every determined quantity, for predictions."""
         names = self.covariance_names

@@ -116,6 +116,18 @@ def format_quantity(value: float, unit: str = "", stderr: float | None = None) -
     return f"{v:.{decimals}f}{suffix} +/- {e:.{decimals}f}{suffix}"
 
 
+def engineering_scale(value: float) -> tuple[float, str]:
+    """The power of 1000 and its SI prefix that :func:`format_quantity` would use.
+
+    Examples
+    --------
+    >>> engineering_scale(339e3)
+    (1000.0, 'k')
+    """
+    exp = _prefix_exponent(value)
+    return 10.0**exp, _PRINT_PREFIXES.get(exp, "")
+
+
 def _prefix_exponent(value: float) -> int:
     if value == 0 or not math.isfinite(value):
         return 0

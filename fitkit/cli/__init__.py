@@ -8,6 +8,7 @@ from fitkit.cli import (  # noqa: F401  (importing a module registers its comman
     plan_cmd,
     predict_cmd,
     report_cmd,
+    show_cmd,
 )
 from fitkit.cli.base import main
 

@@ -103,9 +103,9 @@ def batch_command(
     summary = summarise(records, spec)
     written = write_results(out, summary, settings)
     if with_report:
-        from fitkit.report.html import write_batch_report
+        from fitkit.report.batch_page import write_batch_report
 
-        written.append(write_batch_report(out, summary, settings))
+        written.append(write_batch_report(out, summary, settings, spec))
     for line in summary_lines(summary, records):
         click.echo(line)
     for path in written:

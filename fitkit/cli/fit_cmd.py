@@ -9,7 +9,7 @@ from fitkit.bench_file import (
 )
 from fitkit.cli.base import main, plot_options, reports_errors
 from fitkit.cli.read_options import columns_from_options, read_options
-from fitkit.errors import refuse_overwrite
+from fitkit.errors import InputError, refuse_overwrite
 from fitkit.report.table import fit_table
 from fitkit.setups import BENCHES, DISPLAYS, REFERENCES
 from fitkit.topologies import TOPOLOGIES
@@ -121,6 +121,12 @@ def fit_command(sweep_file, noise, model, keep_outliers, as_json, plot_path, for
     """
     if plot_path:
         refuse_overwrite(plot_path, "plot", force)
+    if sweep_file.lower().endswith(".json"):
+        raise InputError(
+            "this is a saved result (JSON), not a sweep",
+            remedy=f"print it with 'fitkit show {sweep_file}', or fit the sweep it came from",
+            path=sweep_file,
+        )
     fit, bench_path = fit_file(
         sweep_file,
         setup_path=opts.pop("setup_file"),

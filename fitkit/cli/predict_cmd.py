@@ -10,12 +10,13 @@ import click
 from uncertainties import ufloat
 
 from fitkit.bench_file import parse_known
-from fitkit.chain import CIRCUITS, PLACEMENTS, Chain, chain_from_setup, response_db
+from fitkit.chain import CIRCUITS, PLACEMENTS, Chain, chain_from_setup
 from fitkit.cli.base import main, plot_options, reports_errors
 from fitkit.cli.fit_cmd import bench_options, overrides_from_options
 from fitkit.errors import InputError, PredictionError, refuse_overwrite
 from fitkit.predict import Carrier, Prediction, predict, value_and_error, values_from_fit
 from fitkit.rasters import RASTERS, get_raster
+from fitkit.report.predict_plot import plot_prediction
 from fitkit.result import COMPONENTS, load_fit
 from fitkit.topologies import TOPOLOGIES
 from fitkit.units import format_quantity, parse_quantity
@@ -327,39 +328,3 @@ def _limit_lines(p: Prediction) -> list:
         f"           this circuit (R {_u(p.values['R'], 'ohm')}) "
         + ("meets it" if meets else "does NOT meet it"),
     ]
-
-
-def plot_prediction(p: Prediction, path) -> None:
-    """Predicted response around the wanted carrier, carriers marked with their rejection."""
-    import matplotlib
-
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
-    import numpy as np
-
-    marks = [p.wanted_hz] + [r.carrier.freq_hz for r in p.carriers]
-    width = 4.0 * p.wanted_hz / max(value_and_error(p.q_loaded)[0], 1.0)
-    lo = max(min(min(marks) / 1.05, p.wanted_hz - width), p.wanted_hz / 10.0)
-    hi = max(max(marks) * 1.05, p.wanted_hz + width)
-    freq = np.geomspace(lo, hi, 1500)
-    fig, ax = plt.subplots(figsize=(8, 4.5))
-    ax.semilogx(freq, response_db(freq, p.wanted_hz, p.values, p.chain), color="C0")
-    ax.axvline(p.wanted_hz, color="C2", linestyle="--", label="wanted")
-    for i, r in enumerate(p.carriers):
-        rej, err = value_and_error(r.rejection_db)
-        ax.plot(r.carrier.freq_hz, -rej, "o", color="C3")
-        ax.annotate(
-            f"{rej:.1f} +/- {err:.1g} dB",
-            (r.carrier.freq_hz, -rej),
-            textcoords="offset points",
-            xytext=(4, -12 - 10 * (i % 4)),  # staggered: neighbours sit close
-            fontsize=8,
-        )
-    ax.set_xlabel("frequency (Hz)")
-    ax.set_ylabel("response relative to the wanted carrier (dB)")
-    ax.set_title(f"{p.chain.describe()}", fontsize=9)
-    ax.grid(True, which="both", alpha=0.3)
-    ax.legend(loc="lower left")
-    fig.tight_layout()
-    fig.savefig(path, dpi=120)
-    plt.close(fig)

@@ -80,3 +80,27 @@ def _sweep_line(info: dict) -> str:
         f"{info['points']} points, {format_quantity(info['f_min_hz'], 'Hz')} to "
         f"{format_quantity(info['f_max_hz'], 'Hz')}, {info['kind']} ({form})"
     )
+
+
+def drift_table(data: dict) -> str:
+    """A saved drift diagnosis (``drift --json``) as lines: each change with its
+    uncertainty and z, then the reading, the correction and any further entries."""
+    from fitkit.report.drift_page import change_rows, plain_text
+
+    extra, rows = change_rows(data.get("changes", {}))
+    unit, reference = data.get("unit"), data.get("reference")
+    lines = [f"{unit} against {reference}"] if unit and reference else ["drift"]
+    width = max((len(r["label"]) for r in rows), default=0)
+    for r in rows:
+        flag = "changed" if r["changed"] else "unchanged"
+        more = "".join(f"  {name} {cell}" for name, cell in zip(extra, r["extra"]))
+        lines.append(
+            f"  {r['label']:<{width}}  {r['reference']} -> {r['now']}  change {r['change']} "
+            f"({r['relative']})  z = {r['z']}  {flag}{more}"
+        )
+    lines.append("  (a change counts when |z| > 2; u = sqrt(u^2 + u_ref^2))")
+    lines += [f"  reading: {line}" for line in data.get("reading", [])]
+    for key, value in data.items():
+        if key not in ("changes", "reading", "unit", "reference"):
+            lines.append(f"  {key.replace('_', ' ')}: {plain_text(value)}")
+    return "\n".join(lines)
