@@ -40,7 +40,7 @@ def test_rejection_error_matches_monte_carlo(fit, retune):
     propagated = p.carriers[0].rejection_db.std_dev
     sampled = []
     for r, l_h, c_f in draws(fit, seed=5):
-        c_used = tuning_c(wanted, l_h, chain) if retune else c_f
+        c_used = tuning_c(wanted, {"R": r, "L": l_h}, chain) if retune else c_f
         sampled.append(rejection_db(unwanted, wanted, {"R": r, "L": l_h, "C": c_used}, chain))
     assert propagated > 0
     assert propagated == pytest.approx(np.std(sampled, ddof=1), rel=0.05)

@@ -282,8 +282,7 @@ def prediction_table(p: Prediction, origin: str) -> str:
         f"  circuit  R {_u(v['R'], 'ohm')}, L {_u(v['L'], 'H')}",
         f"  chain    {p.chain.describe()}",
         f"  wanted   {format_quantity(p.wanted_hz, 'Hz')}",
-        f"  tuning   C {_u(v['C'], 'F')} ({p.c_origin}"
-        + (f", tuned to {format_quantity(p.tune_hz, 'Hz')})" if p.c_origin == "retuned" else ")"),
+        f"  tuning   C {_u(v['C'], 'F')} ({p.c_origin}: {_extremum_text(p)})",
         f"  loaded Q {_u(p.q_loaded, '')} ({_loading(p.chain)})",
     ]
     if p.carriers:
@@ -297,11 +296,24 @@ def prediction_table(p: Prediction, origin: str) -> str:
                 f"{r.carrier.level_db:>+7.1f}dB   {_db(r.rejection_db):<27}  {_db(r.sir_db)}"
                 + (f"  ({r.carrier.label})" if r.carrier.label else "")
             )
+    if p.notes:
+        lines += [""] + [f"  note     {note}" for note in p.notes]
     if p.band is not None:
         lines += ["", *_band_lines(p)]
     if p.limit is not None:
         lines += ["", *_limit_lines(p)]
     return "\n".join(lines)
+
+
+def _extremum_text(p: Prediction) -> str:
+    if p.extremum_hz is None:
+        return f"the chain's response has no {p.chain.extremum} near {format_quantity(p.tune_hz, 'Hz')}"
+    at = _u(p.extremum_hz, "Hz")
+    return (
+        f"the chain's response peaks at {at}"
+        if p.chain.passes
+        else f"the chain's null sits at {at}"
+    )
 
 
 def _band_lines(p: Prediction) -> list:
