@@ -148,9 +148,11 @@ def test_starting_points_and_chains_are_checked(saved_fit):
 
 
 def test_the_reported_tank_is_tuned_on_its_chain_and_a_stronger_neighbour_is_named():
-    args = ("--value", "R=4", "--value", "L=240u", "--value", "C=200p", "--circuit", "tank",
-            "--wanted", "1008k", "--carrier", "+9k", "--carrier", "-9k", "--placement", "shunt",
-            "--chain-source-r", "100k", "--chain-load-r", "1M", "--chain-load-c", "20p")  # fmt: skip
+    args = (
+        *("--value", "R=4", "--value", "L=240u", "--value", "C=200p", "--circuit", "tank"),
+        *("--wanted", "1008k", "--carrier", "+9k", "--carrier", "-9k", "--placement", "shunt"),
+        *("--chain-source-r", "100k", "--chain-load-r", "1M", "--chain-load-c", "20p"),
+    )
     out = run(*args)
     assert out.exit_code == 0, out.output
     assert "retuned: the chain's response peaks at 1.008 MHz" in out.output
