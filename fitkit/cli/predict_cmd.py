@@ -307,13 +307,12 @@ def prediction_table(p: Prediction, origin: str) -> str:
 
 def _extremum_text(p: Prediction) -> str:
     if p.extremum_hz is None:
-        return f"the chain's response has no {p.chain.extremum} near {format_quantity(p.tune_hz, 'Hz')}"
+        near = format_quantity(p.tune_hz, "Hz")
+        return f"the chain's response has no {p.chain.extremum} near {near}"
     at = _u(p.extremum_hz, "Hz")
-    return (
-        f"the chain's response peaks at {at}"
-        if p.chain.passes
-        else f"the chain's null sits at {at}"
-    )
+    if p.chain.passes:
+        return f"the chain's response peaks at {at}"
+    return f"the chain's null sits at {at}"
 
 
 def _band_lines(p: Prediction) -> list:
