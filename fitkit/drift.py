@@ -231,7 +231,8 @@ def corrections(changes: list[Change]) -> list[str]:
     if f0 is not None and f0.significant and not {"L", "C"} & set(by):
         lc = (1 + f0.relative) ** -2 - 1
         out.append(
-            f"f0 has moved {signed_percent(f0.relative, f0.u / f0.reference)}: the product L*C "
+            f"f0 has {'risen' if f0.delta > 0 else 'fallen'} by "
+            f"{signed_percent(abs(f0.relative), f0.u / f0.reference).lstrip('+')}: the product L*C "
             f"has {_grown(lc)}; retune (slug or trimmer) until f0 is back at "
             f"{format_quantity(f0.reference, 'Hz')}"
         )

@@ -120,7 +120,7 @@ def test_an_analyser_bench_alone_plans_a_tank_and_says_so():
               "--c", "470p", "--noise", "0.2%")  # fmt: skip
     assert out.exit_code == 0, out.output
     assert "model    parallel tank (coil with loss across C)" in out.output
-    assert "bench    impedance: impedance read directly; reads impedance" in out.output
+    assert "bench    impedance read directly; reads impedance" in out.output
     # the tank's own resonance 1/(2 pi sqrt(LC)) = 404.1 kHz and Q = w0 L / R = 69.8
     assert "404.1 kHz" in row(out.output, "f0 (resonance)")
     assert "69.8" in row(out.output, "Q (loaded")

@@ -137,7 +137,7 @@ def plan_command(noise, magnitude_only, points, spacing, target, **opts):
     )
     click.echo(f"fitkit {__version__}: Cramer-Rao lower bound for a planned sweep")
     click.echo(f"  model    {expected.describe()}")
-    click.echo(f"  bench    {setup.bench}: {setup.describe()}; reads {setup.kind} ({kind_from})")
+    click.echo(f"  bench    {setup.describe()}; reads {setup.kind} ({kind_from})")
     click.echo(f"  sweep    {_sweep_text(shape, freq_hz)}")
     click.echo(
         f"  data     {'complex' if complex_data else 'magnitude only'}, noise "
