@@ -7,10 +7,18 @@ import math
 import numpy as np
 import pytest
 
-from fitkit.chain import Chain, chain_from_setup, rejection_db
+from fitkit.chain import Chain, chain_from_setup, rejection_db, response_db
 from fitkit.circuits import series_rlc
 from fitkit.errors import PredictionError
-from fitkit.predict import Carrier, band_cover, loss_limit, needed_q, predict, tuning_c
+from fitkit.predict import (
+    Carrier,
+    band_cover,
+    loaded_q,
+    loss_limit,
+    needed_q,
+    predict,
+    tuning_c,
+)
 from fitkit.setups import Setup
 
 TWO_PI = 2.0 * math.pi
@@ -222,3 +230,33 @@ def test_a_neighbour_stronger_than_the_wanted_carrier_is_called_out_with_the_rea
     )  # fmt: skip
     assert "the circuit traps (its null sits at 1 MHz" in trap.notes[0]
     assert not predict(VALUES, CHAIN, wanted_hz=1e6, carriers=(Carrier(1.1e6),)).notes
+
+
+def test_a_capacitor_range_is_judged_by_where_it_puts_the_chains_peak():
+    # a nearly lossless tank with 20 pF across the load: the ends of 50-450 pF put the peak
+    # at 1/(2 pi sqrt(L (C + 20 pF))) (the tank's resonance with all its capacitance)
+    chain = Chain("shunt", 100e3, 1e6, 20e-12, circuit="tank")
+    values = {"R": 0.05, "L": 240e-6, "C": 100e-12}
+    with pytest.raises(PredictionError) as err:
+        predict(values, chain, wanted_hz=2.2e6, c_range_f=(50e-12, 450e-12))
+    low, high = (1 / (TWO_PI * math.sqrt(240e-6 * (c + 20e-12))) for c in (450e-12, 50e-12))
+    assert f"puts this chain's peak from about {low / 1e3:.1f} kHz to {high / 1e6:.3f} MHz" in str(
+        err.value
+    )
+
+
+@pytest.mark.parametrize("chain", [Chain("series", 10.0, 50.0, 1e-9), Chain("shunt", 600.0, 10e3)])
+def test_loaded_q_with_a_load_capacitance_matches_the_half_power_width(chain):
+    # the -3 dB width of the chain's response (or a trap's notch, from its far-off level)
+    # is f0 / Q_L for a single tuned circuit (Alexander & Sadiku ch. 14, from memory)
+    values = {"R": 6.8, "L": 220e-6}
+    values["C"] = tuning_c(999e3, values, chain)
+    q = loaded_q(values, chain, 999e3)
+    f = np.linspace(999e3 * (1 - 3 / q), 999e3 * (1 + 3 / q), 400001)
+    db = response_db(f, 999e3, values, chain)
+    if chain.passes:
+        inside = f[db > -3.0103]
+    else:  # a trap: the notch's -3 dB points below the level far from it
+        far = response_db(np.array([99.9e3, 9.99e6]), 999e3, values, chain).mean()
+        inside = f[db < far - 3.0103]
+    assert 999e3 / (inside[-1] - inside[0]) == pytest.approx(q, rel=0.02)
