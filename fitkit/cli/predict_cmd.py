@@ -267,8 +267,10 @@ def _u(x, unit: str) -> str:
     return format_quantity(value, unit, err)
 
 
-def _loading(chain: Chain) -> str:
-    rloop = format_quantity(chain.loop_ohm, "ohm")
+def _loading(p: Prediction) -> str:
+    chain = p.chain
+    at = None if p.extremum_hz is None else value_and_error(p.extremum_hz)[0]
+    rloop = format_quantity(chain.loop_ohm if at is None else chain.loop_ohm_at(at), "ohm")
     if chain.circuit == "tank":
         return f"the chain's {rloop} damping the tank's dynamic resistance"
     return f"R + {rloop} of the chain in the loop"
@@ -283,7 +285,7 @@ def prediction_table(p: Prediction, origin: str) -> str:
         f"  chain    {p.chain.describe()}",
         f"  wanted   {format_quantity(p.wanted_hz, 'Hz')}",
         f"  tuning   C {_u(v['C'], 'F')} ({p.c_origin}: {_extremum_text(p)})",
-        f"  loaded Q {_u(p.q_loaded, '')} ({_loading(p.chain)})",
+        f"  loaded Q {_u(p.q_loaded, '')} ({_loading(p)})",
     ]
     if p.carriers:
         head = f"  {'carrier':<14}{'offset':>12}{'level':>9}   {'rejection':<27}  S/I at the output"
