@@ -151,3 +151,14 @@ def test_bad_sweep_ends_and_models_are_refused(args, message):
     out = run(*CIRCUIT, "--noise", "1e-3", *args)
     assert out.exit_code == 2
     assert message in out.output
+
+
+def test_the_reading_follows_the_bench_in_a_setup_file(tmp_path):
+    setup = tmp_path / "fitkit-setup.toml"
+    setup.write_text('[bench]\narrangement = "reflection"\nreference_impedance = "50"\n')
+    out = run("--setup", setup, "--r", "5", "--l", "10u", "--c", "100p", "--noise", "1e-3")
+    assert out.exit_code == 0, out.output
+    assert "reads s11 (the bench's reading)" in row(out.output, "bench")
+    # S11 loads the series circuit with Z0: Q_L = w0 L / (R + Z0) (common practice)
+    q_loaded = 2 * 3.141592653589793 * 5.0329e6 * 10e-6 / 55.0
+    assert float(row(out.output, "Q (loaded").split()[-3]) == pytest.approx(q_loaded, rel=1e-3)
