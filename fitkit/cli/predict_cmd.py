@@ -351,6 +351,8 @@ def plot_prediction(p: Prediction, path) -> None:
     import numpy as np
 
     marks = [p.wanted_hz] + [r.carrier.freq_hz for r in p.carriers]
+    if p.extremum_hz is not None:  # the chain's peak (or null) is drawn too
+        marks.append(value_and_error(p.extremum_hz)[0])
     width = 4.0 * p.wanted_hz / max(value_and_error(p.q_loaded)[0], 1.0)
     lo = max(min(min(marks) / 1.05, p.wanted_hz - width), p.wanted_hz / 10.0)
     hi = max(max(marks) * 1.05, p.wanted_hz + width)
@@ -358,6 +360,8 @@ def plot_prediction(p: Prediction, path) -> None:
     fig, ax = plt.subplots(figsize=(8, 4.5))
     ax.semilogx(freq, response_db(freq, p.wanted_hz, p.values, p.chain), color="C0")
     ax.axvline(p.wanted_hz, color="C2", linestyle="--", label="wanted")
+    if p.extremum_hz is not None:
+        ax.axvline(marks[-1], color="C1", linestyle=":", label=f"the chain's {p.chain.extremum}")
     for i, r in enumerate(p.carriers):
         rej, err = value_and_error(r.rejection_db)
         ax.plot(r.carrier.freq_hz, -rej, "o", color="C3")
