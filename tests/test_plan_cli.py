@@ -162,3 +162,14 @@ def test_the_reading_follows_the_bench_in_a_setup_file(tmp_path):
     # S11 loads the series circuit with Z0: Q_L = w0 L / (R + Z0) (common practice)
     q_loaded = 2 * 3.141592653589793 * 5.0329e6 * 10e-6 / 55.0
     assert float(row(out.output, "Q (loaded").split()[-3]) == pytest.approx(q_loaded, rel=1e-3)
+
+
+def test_a_coil_with_skin_effect_is_named_in_the_plan():
+    out = run(*CIRCUIT, "--noise", "1e-3", "--model", "coil", "--c-self", "5p",
+              "--skin-above", "200k")  # fmt: skip
+    assert out.exit_code == 0, out.output
+    assert row(out.output, "model") == (
+        "model    coil with self-capacitance, in series with C, self-capacitance 5 pF, "
+        "loss growing as sqrt(f) above 200 kHz"
+    )
+    assert "C self (coil self-capacitance)" in out.output
