@@ -168,7 +168,7 @@ def test_a_coil_with_skin_effect_is_named_in_the_plan():
     out = run(*CIRCUIT, "--noise", "1e-3", "--model", "coil", "--c-self", "5p",
               "--skin-above", "200k")  # fmt: skip
     assert out.exit_code == 0, out.output
-    assert row(out.output, "model") == (
+    assert row(out.output, "model").strip() == (
         "model    coil with self-capacitance, in series with C, self-capacitance 5 pF, "
         "loss growing as sqrt(f) above 200 kHz"
     )
