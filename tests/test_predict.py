@@ -10,16 +10,9 @@ import pytest
 from fitkit.chain import Chain, chain_from_setup, rejection_db, response_db
 from fitkit.circuits import series_rlc
 from fitkit.errors import PredictionError
-from fitkit.predict import (
-    Carrier,
-    band_cover,
-    loaded_q,
-    loss_limit,
-    needed_q,
-    predict,
-    tuning_c,
-)
+from fitkit.predict import Carrier, loaded_q, loss_limit, needed_q, predict
 from fitkit.setups import Setup
+from fitkit.tuning import band_cover, tuning_c
 
 TWO_PI = 2.0 * math.pi
 

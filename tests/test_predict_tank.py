@@ -9,7 +9,8 @@ import pytest
 
 from fitkit.chain import Chain, rejection_db, response_db
 from fitkit.errors import PredictionError
-from fitkit.predict import Carrier, loaded_q, loss_limit, predict, tuning_c
+from fitkit.predict import Carrier, loaded_q, loss_limit, predict
+from fitkit.tuning import tuning_c
 from tests.spice import require_ngspice, spice_rejection_db, spice_value
 
 L_H, R_OHM = 330e-6, 12.0

@@ -7,7 +7,8 @@ import pytest
 
 from fitkit.chain import chain_from_setup, rejection_db
 from fitkit.fitting import fit_sweep
-from fitkit.predict import Carrier, loss_limit, predict, tuning_c, values_from_fit
+from fitkit.predict import Carrier, loss_limit, predict, values_from_fit
+from fitkit.tuning import tuning_c
 from tests.synthetic import SETUPS, make_sweep
 
 SAMPLES = 4000
