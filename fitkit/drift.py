@@ -274,19 +274,19 @@ def _restore_l(c: Change) -> str:
     turns = (math.sqrt(c.reference / c.value) - 1.0) * 100.0
     if c.delta > 0:
         return (
-            f"turn its slug out (less core in the winding), or take off about "
+            f"if it has a slug, turn it out (less core in the winding); else take off about "
             f"{abs(turns):.2g}% of its turns"
         )
-    return f"turn its slug further in, or add about {turns:.2g}% more turns"
+    return f"if it has a slug, turn it further in; else add about {turns:.2g}% more turns"
 
 
 def _restore_r(c: Change) -> str:
     if c.delta > 0:
         return (
-            "the loss has grown: look for a dry joint, a corroded contact, damp in the "
-            "winding or a lossy capacitor; no trim restores it"
+            "look for a dry joint, a corroded contact, damp in the winding or a lossy "
+            "capacitor; no trim restores it"
         )
-    return "the loss has fallen: check the unit is the one the reference was taken of"
+    return "check that the unit is the one the reference was taken of"
 
 
 _RESTORE = {"C": _restore_c, "L": _restore_l, "R": _restore_r}

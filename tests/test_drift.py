@@ -94,9 +94,9 @@ def test_a_shrunk_capacitor_takes_the_difference_across_it():
 def test_coil_corrections_in_turns_and_slug_direction():
     # L ~ N^2 for a fixed winding (common practice): +4 % L is 2 % too many turns
     grown = corrections([Change("L", 100e-6, 0.1e-6, 104.04e-6, 0.1e-6)])[0]
-    assert "turn its slug out" in grown and "take off about 2% of its turns" in grown
+    assert "turn it out" in grown and "take off about 2% of its turns" in grown
     shrunk = corrections([Change("L", 100e-6, 0.1e-6, 96.04e-6, 0.1e-6)])[0]
-    assert "turn its slug further in" in shrunk and "add about 2% more turns" in shrunk
+    assert "turn it further in" in shrunk and "add about 2% more turns" in shrunk
 
 
 def test_doubtful_marks_and_fit_warnings_reach_the_printout_and_json(tmp_path):
