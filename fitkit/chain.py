@@ -15,6 +15,13 @@ the textbook ``1 + Q_L^2 (f/f0 - f0/f)^2`` with ``Q_L = w0 L / (R + Rsource + Rl
 ``D`` is computed in real arithmetic on (real, imaginary) pairs, because ``uncertainties``
 has no complex numbers: the same code then runs on floats, numpy arrays (plots) and
 correlated ``uncertainties`` values (error bars that keep the L-C correlation).
+
+The chain's response has a peak where the circuit passes the carrier (a series circuit in
+series, a tank across the line) and a null where it traps it (a series circuit across the
+line, a tank in series); :func:`extremum_hz` finds it on the whole chain, load capacitance
+included. Its slope ``d|D|^2/df`` is taken by the complex-step derivative (Squire and
+Trapp, SIAM Review 40, 1998, from memory), exact to rounding because every operation on
+the pairs is analytic.
 """
 
 from __future__ import annotations
@@ -23,6 +30,7 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
+from scipy.optimize import brentq
 from uncertainties import umath
 
 from fitkit.errors import PredictionError
@@ -130,6 +138,31 @@ class Chain:
             )
 
     @property
+    def passes(self) -> bool:
+        """True when the response peaks at the circuit's resonance; False for a trap (null)."""
+        return (self.placement == "series") == (self.circuit == "series")
+
+    @property
+    def extremum(self) -> str:
+        """``"peak"`` or ``"null"``: what the circuit puts in the chain's response."""
+        return "peak" if self.passes else "null"
+
+    def loop_ohm_at(self, freq_hz):
+        """The resistance the chain presents to the circuit at ``freq_hz``.
+
+        As :attr:`loop_ohm`, with the load capacitance in the load: the real part of
+        ``Rsource + Zl`` (series placement) or of ``Rsource || Zl`` (a series circuit
+        across the line), the resistance in series with the circuit. A tank across the line
+        has ``Rsource || Rload`` across it; the load's capacitance adds to the tank's own.
+        """
+        yl = load_admittance(freq_hz, self)
+        if self.placement == "series":
+            return self.source_ohm + (1.0 / yl).re
+        if self.circuit == "tank":
+            return self.loop_ohm
+        return (1.0 / (yl + 1.0 / self.source_ohm)).re
+
+    @property
     def loop_ohm(self) -> float:
         """Resistance the chain puts in series with the circuit (sets the loaded Q)."""
         if self.placement == "series":
@@ -188,6 +221,12 @@ def chain_from_setup(setup: dict) -> Chain:
     )
 
 
+def load_admittance(freq_hz, chain: Chain) -> Pair:
+    """``Yl = 1/Rload + j w Cload`` (no resistive load: the capacitance alone)."""
+    g = 0.0 if chain.load_ohm is None else 1.0 / chain.load_ohm
+    return Pair(g, TWO_PI * freq_hz * chain.load_f)
+
+
 def denominator_abs2(freq_hz, values: dict, chain: Chain):
     """``|D|^2`` of the chain (see the module docstring); floats, arrays or ufloats."""
     w = TWO_PI * freq_hz
@@ -195,12 +234,55 @@ def denominator_abs2(freq_hz, values: dict, chain: Chain):
         zc = 1.0 / (1.0 / Pair(values["R"], w * values["L"]) + Pair(0.0, w * values["C"]))
     else:
         zc = Pair(values["R"], w * values["L"] - 1.0 / (w * values["C"]))
-    yl = Pair(0.0 if chain.load_ohm is None else 1.0 / chain.load_ohm, w * chain.load_f)
+    yl = load_admittance(freq_hz, chain)
     if chain.placement == "series":
         d = 1.0 + (chain.source_ohm + zc) * yl
     else:
         d = 1.0 + chain.source_ohm * (1.0 / zc + yl)
     return d.abs2()
+
+
+def response_slope(freq_hz: float, values: dict, chain: Chain) -> float:
+    """``d|D|^2/df`` at ``freq_hz`` (floats only), by the complex-step derivative."""
+    step = 1e-20 * freq_hz
+    plain = {n: nominal(v) for n, v in values.items()}
+    return denominator_abs2(complex(freq_hz, step), plain, chain).imag / step
+
+
+def extremum_hz(values: dict, chain: Chain, near_hz: float) -> float | None:
+    """The chain's response peak (or a trap's null) nearest ``near_hz``; None without one.
+
+    Examples
+    --------
+    >>> chain = Chain("series", 50.0, 50.0)
+    >>> round(extremum_hz({"R": 5.0, "L": 220e-6, "C": 1e-9}, chain, 300e3))
+    339319
+    """
+    sign = 1.0 if chain.passes else -1.0
+
+    def beyond(f):  # above 0 where f lies above the extremum
+        return sign * response_slope(f, values, chain)
+
+    return bracketed_root(beyond, near_hz)
+
+
+def bracketed_root(func, start: float) -> float | None:
+    """The root of an increasing ``func`` nearest ``start`` (> 0), searched geometrically.
+
+    None when none lies within a factor of about 1e21 either side.
+    """
+    first = func(start)
+    if first == 0:
+        return start
+    down = first > 0
+    edge, step = start, 1e-3
+    for _ in range(80):
+        other = edge / (1.0 + step) if down else edge * (1.0 + step)
+        if (func(other) < 0) == down:
+            lo, hi = (other, edge) if down else (edge, other)
+            return brentq(func, lo, hi, xtol=1e-15 * start, rtol=1e-14)
+        edge, step = other, min(step * 2.0, 1.0)
+    return None
 
 
 def rejection_db(freq_hz: float, wanted_hz: float, values: dict, chain: Chain):

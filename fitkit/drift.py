@@ -8,14 +8,22 @@ exact (``u_ref = 0``). A change is significant when ``|z| = |d| / u > 2`` (about
 The reading ties the resonance back to the parts with the series R-L-C relations
 ``f0 = 1 / (2 pi sqrt(L C))`` and ``Q = (1/R) sqrt(L/C)``: a relative change dC/C moves f0
 by about -dC/(2C) and Q by about -dC/(2C).
+
+The correction restores the reference value of a part that moved: a capacitance that
+shrank takes the difference across it (capacitances in parallel add); one that grew takes
+``C Cref / (C - Cref)`` in series (series capacitances add as reciprocals), or a part of
+the reference value. A coil's L goes as the square of its turns for a fixed winding
+(common practice), so the turns change by ``sqrt(Lref / L) - 1``; a slug screwed further
+into the winding raises L.
 """
 
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 from fitkit.result import QUANTITIES, CircuitFit
+from fitkit.units import format_quantity
 
 #: |z| above this is a significant change (k = 2, about 95 % for a normal distribution)
 SIGNIFICANT_Z = 2.0
@@ -32,6 +40,8 @@ class Change:
     reference_u: float
     value: float
     value_u: float
+
+    doubtful: str = ""  # why the fit on either side marks this value doubtful
 
     @property
     def delta(self) -> float:
@@ -59,11 +69,38 @@ class Change:
     def to_dict(self) -> dict:
         z = self.z if math.isfinite(self.z) else None
         return {
+            "unit": QUANTITIES[self.name][0],
             "reference": self.reference, "reference_u": self.reference_u,
             "value": self.value, "value_u": self.value_u, "change": self.delta,
-            "relative": self.relative, "change_u": self.u, "z": z,
-            "significant": self.significant,
+            "relative": self.relative, "change_u": self.u,
+            "relative_u": self.u / abs(self.reference), "z": z,
+            "significant": self.significant, "doubtful": self.doubtful,
         }  # fmt: skip
+
+
+@dataclass(frozen=True)
+class Side:
+    """One side of a comparison: where its values came from and what its fit warned of.
+
+    Attributes
+    ----------
+    source : str
+        The file (or "nominal values").
+    values : dict
+        ``{quantity: (value, stderr)}``; nominal values with stderr 0.
+    warnings : tuple of str
+        The fit's warnings.
+    doubtful : dict
+        ``{quantity: why}`` for values the fit marks doubtful.
+    """
+
+    source: str
+    values: dict
+    warnings: tuple = ()
+    doubtful: dict = field(default_factory=dict)
+
+    def to_dict(self) -> dict:
+        return {"source": self.source, "warnings": list(self.warnings), "doubtful": self.doubtful}
 
 
 def fit_values(fit: CircuitFit) -> dict:
@@ -71,19 +108,37 @@ def fit_values(fit: CircuitFit) -> dict:
     return {n: (q.value, q.stderr or 0.0) for n, q in fit.quantities.items() if q.value is not None}
 
 
-def compare(unit: dict, reference: dict) -> list[Change]:
+def side_of_fit(fit: CircuitFit, source: str) -> Side:
+    """A fit as one side of a comparison, with its warnings and doubtful marks."""
+    doubtful = {
+        n: getattr(q, "doubtful", "")
+        for n, q in fit.quantities.items()
+        if getattr(q, "doubtful", "")
+    }
+    return Side(source, fit_values(fit), tuple(fit.stats.warnings), doubtful)
+
+
+def compare(unit, reference) -> list[Change]:
     """The changes of every value both sides give, in the order of ``QUANTITIES``.
 
     Parameters
     ----------
-    unit, reference : dict
-        ``{quantity: (value, stderr)}``; nominal values with stderr 0.
+    unit, reference : Side or dict
+        A :class:`Side`, or its ``{quantity: (value, stderr)}``.
     """
+    unit, reference = (x if isinstance(x, Side) else Side("", x) for x in (unit, reference))
+    now, ref = unit.values, reference.values
     return [
-        Change(name, *reference[name], *unit[name])
+        Change(name, *ref[name], *now[name], _doubt(name, unit, reference))
         for name in QUANTITIES
-        if name in unit and name in reference and reference[name][0]
+        if name in now and name in ref and ref[name][0]
     ]
+
+
+def _doubt(name: str, unit: Side, reference: Side) -> str:
+    why = [f"{which}: {side.doubtful[name]}" for which, side in (("now", unit),
+           ("reference", reference)) if side.doubtful.get(name)]  # fmt: skip
+    return "; ".join(why)
 
 
 def _move(change: Change | None) -> str:
@@ -159,3 +214,79 @@ def _relative_reading(by: dict, head: str) -> list[str]:
         "with a calibrated scale, so that R, L and C are determined"
     )
     return lines
+
+
+def corrections(changes: list[Change]) -> list[str]:
+    """What restores the reference, for each part that changed significantly.
+
+    Examples
+    --------
+    >>> c = Change("C", 200e-12, 0.1e-12, 183.8e-12, 0.1e-12)
+    >>> corrections([c])[0]
+    'C has shrunk by 16.20 pF +/- 0.14 pF (-8.100% +/- 0.071%): add about 16.2 pF across it'
+    """
+    by = {c.name: c for c in changes}
+    out = []
+    f0 = by.get("f0_hz")
+    if f0 is not None and f0.significant and not {"L", "C"} & set(by):
+        lc = (1 + f0.relative) ** -2 - 1
+        out.append(
+            f"f0 has {'risen' if f0.delta > 0 else 'fallen'} by "
+            f"{signed_percent(abs(f0.relative), f0.u / f0.reference).lstrip('+')}: the product L*C "
+            f"has {_grown(lc)}; retune (slug or trimmer) until f0 is back at "
+            f"{format_quantity(f0.reference, 'Hz')}"
+        )
+    for c in changes:
+        if not c.significant or c.name not in _RESTORE:
+            continue
+        unit = QUANTITIES[c.name][0]
+        moved = (
+            f"{c.name} has {'grown' if c.delta > 0 else 'shrunk'} by "
+            f"{format_quantity(abs(c.delta), unit, c.u or None)} "
+            f"({signed_percent(c.relative, c.u / abs(c.reference))})"
+        )
+        out.append(f"{moved}: {_RESTORE[c.name](c)}")
+    return out
+
+
+def signed_percent(relative: float, relative_u: float) -> str:
+    """'-2.8720% +/- 0.0020%': a relative change to the precision its uncertainty allows."""
+    value, _, u = format_quantity(relative * 100, "", relative_u * 100 or None).partition(" +/- ")
+    sign = "+" if relative >= 0 and not value.startswith("-") else ""
+    return f"{sign}{value}% +/- {u}%" if u else f"{sign}{value}%"
+
+
+def _about(x: float, unit: str) -> str:
+    return format_quantity(float(f"{x:.3g}"), unit)
+
+
+def _restore_c(c: Change) -> str:
+    if c.delta < 0:
+        return f"add about {_about(-c.delta, 'F')} across it"
+    series = c.value * c.reference / c.delta
+    return (
+        f"replace it with a part of {_about(c.reference, 'F')}, or put about "
+        f"{_about(series, 'F')} in series with it"
+    )
+
+
+def _restore_l(c: Change) -> str:
+    turns = (math.sqrt(c.reference / c.value) - 1.0) * 100.0
+    if c.delta > 0:
+        return (
+            f"if it has a slug, turn it out (less core in the winding); else take off about "
+            f"{abs(turns):.2g}% of its turns"
+        )
+    return f"if it has a slug, turn it further in; else add about {turns:.2g}% more turns"
+
+
+def _restore_r(c: Change) -> str:
+    if c.delta > 0:
+        return (
+            "look for a dry joint, a corroded contact, damp in the winding or a lossy "
+            "capacitor; no trim restores it"
+        )
+    return "check that the unit is the one the reference was taken of"
+
+
+_RESTORE = {"C": _restore_c, "L": _restore_l, "R": _restore_r}

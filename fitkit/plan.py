@@ -5,16 +5,15 @@ No unbiased estimator can beat ``cov >= F^-1``, with the Fisher matrix
 stacked for complex data, magnitude rows only for magnitude data); Kay, Fundamentals of
 Statistical Signal Processing: Estimation Theory, 1993, ch. 3 (from memory).
 
-The Jacobian is analytic, taken in the fit's own well-conditioned parameters
-(ln f0, ln loaded Q, ln loop resistance and, for an uncalibrated scale, ln gain). With
-``Z = Rloop (1 + j QL y) - Rfixture``, ``y = f/f0 - f0/f``, the circuit derivatives are
-
-    dZ/d ln Rloop = Rloop (1 + j QL y)
-    dZ/d ln QL    = j Rloop QL y
-    dZ/d ln f0    = -j Rloop QL (f/f0 + f0/f)
-
-and the bench's bilinear map adds ``dm/dZ = (a d - b c) / (c Z + d)^2``. R, L, C, f0 and
-Q follow by the delta method from their gradients in the same log parameters.
+The Jacobian is taken in the fit's own well-conditioned parameters (ln f0, ln Q, ln of the
+scale resistance, for a coil ln of its self-resonance, and for an uncalibrated scale
+ln gain), through the same forward model the fit uses (:func:`fitkit.estimate.predicted`:
+every model of :mod:`fitkit.topologies`, with a loss growing as sqrt(f) when asked, read
+through any bench of :mod:`fitkit.setups`). The derivatives are central differences of
+step 1e-6 in the log parameters: their truncation error (about 1e-12 relative) is far
+below anything a bound is read to. Every reported value (R, L, C, f0, Q, the bandwidths
+and the model's own extras) follows by the delta method from its gradient in the same
+log parameters.
 
 A value is *undetermined* when its gradient has a component along a direction the data
 leave open (a relative sweep: scale and loop resistance trade off exactly); the bound is
@@ -33,21 +32,35 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from fitkit.circuits import TWO_PI, series_rlc
+from fitkit.circuits import TWO_PI
 from fitkit.errors import SetupError
+from fitkit.estimate import predicted
 from fitkit.noise import Noise
-from fitkit.result import Quantity
+from fitkit.result import OPTIONAL, QUANTITIES, Quantity
 from fitkit.setups import Setup
+from fitkit.topologies import get_topology
+from fitkit.units import format_quantity
 
 SPACINGS = ("linear", "log")
-#: what the bound covers: the series circuit's values, named as in a fit's quantities
+#: what the bound covers for every model, named as in a fit's quantities (a model's own
+#: extras, such as a tank's dynamic resistance, come on top: :data:`fitkit.result.OPTIONAL`)
 BOUNDED = ("R", "L", "C", "f0_hz", "Q", "Q_loaded", "bandwidth_hz", "loaded_bandwidth_hz")
+#: the kind of reading each bench gives
+READING_OF_BENCH = {
+    "divider": "ratio",
+    "across": "ratio",
+    "impedance": "impedance",
+    "reflection": "s11",
+    "series-through": "s21",
+    "shunt-through": "s21",
+}
 #: the grid the planner searches: half-spans in loaded bandwidths, and point counts
 PLAN_SPANS_BW = (1.0, 1.5, 2.0, 3.0, 5.0, 10.0, 20.0)
 PLAN_POINTS = (11, 21, 51, 101, 201, 401, 1001, 2001, 5001)
 _SINGULAR = 1e-6  # relative singular value below which a direction is not determined
 _LEAK = 1e-3  # share of a gradient along an open direction that makes a value open too
 _EXACT_KNOWN = 1e-6  # relative uncertainty taken for a known value given without one
+_STEP = 1e-6  # central-difference step in the log parameters
 
 
 @dataclass(frozen=True)
@@ -116,7 +129,7 @@ class Bounds:
     Attributes
     ----------
     quantities : dict
-        Name (one of :data:`BOUNDED`) -> :class:`~fitkit.result.Quantity`
+        Name (:data:`BOUNDED` and the model's extras) -> :class:`~fitkit.result.Quantity`
         holding the expected value and its bound, or no number and the reason.
     freq_hz : ndarray
         The frequencies the bound is for.
@@ -141,6 +154,142 @@ class Bounds:
         return None if not q.determined else q.stderr / abs(q.value)
 
 
+@dataclass(frozen=True)
+class Expected:
+    """The circuit a sweep is planned for: a model of :mod:`fitkit.topologies` and its values.
+
+    Attributes
+    ----------
+    r_ohm, l_h, c_f : float
+        Loss, inductance and capacitance (for a tank: the coil's series loss and the
+        capacitance across it).
+    model : str
+        ``series``, ``tank`` or ``coil``, as for ``fitkit fit --model``.
+    c_self_f : float or None
+        A coil's self-capacitance (``coil`` only).
+    r_dc_ohm : float or None
+        The coil's resistance at low frequency (an ohmmeter's reading), below ``r_ohm``:
+        the loss then grows as ``R_dc + k sqrt(f)`` to ``r_ohm`` at the resonance (the
+        ``-sqrtf`` models of ``fitkit fit``).
+    """
+
+    r_ohm: float
+    l_h: float
+    c_f: float
+    model: str = "series"
+    c_self_f: float | None = None
+    r_dc_ohm: float | None = None
+
+    def __post_init__(self) -> None:
+        _check_circuit(self.r_ohm, self.l_h, self.c_f)
+        get_topology(self.model)
+        if (self.model == "coil") != (self.c_self_f is not None):
+            raise SetupError(
+                "a coil with self-capacitance needs its expected self-capacitance, and only "
+                "that model takes one",
+                remedy="give --model coil with --c-self (e.g. 8p), or drop --c-self",
+            )
+        for name in ("c_self_f", "r_dc_ohm"):
+            value = getattr(self, name)
+            if value is not None and not (math.isfinite(value) and value > 0):
+                raise SetupError(f"the expected {name} must be above zero, not {value!r}")
+        if self.r_dc_ohm is not None and not self.r_dc_ohm < self.r_ohm:
+            raise SetupError(
+                f"the dc resistance {format_quantity(self.r_dc_ohm, 'ohm')} must lie below the "
+                f"loss at the resonance, {format_quantity(self.r_ohm, 'ohm')}",
+                remedy="give --r the loss at the resonance and --r-dc the ohmmeter's reading",
+            )
+
+    @property
+    def topology(self):
+        return get_topology(self.model + ("-sqrtf" if self.r_dc_ohm is not None else ""))
+
+    def describe(self) -> str:
+        """The model in words, e.g. ``'series R-L-C'``."""
+        text = self.topology.label
+        if self.c_self_f is not None:
+            text += f", self-capacitance {format_quantity(self.c_self_f, 'F')}"
+        if self.r_dc_ohm is not None:
+            text = text.replace(", loss r_dc + k sqrt(f)", "")
+            text += (
+                f", loss growing as R_dc + k sqrt(f) from {format_quantity(self.r_dc_ohm, 'ohm')}"
+            )
+        return text
+
+    def internal(self, setup: Setup) -> np.ndarray:
+        """The fit's log parameters for this circuit: ln f0, ln q, ln scale[, ln f_self]."""
+        w0 = 1.0 / math.sqrt(self.l_h * self.c_f)
+        if self.model == "tank":
+            q = w0 * self.l_h / self.r_ohm
+            scale = q * q * self.r_ohm
+        else:
+            scale = self.r_ohm + setup.external_ohm
+            q = w0 * self.l_h / scale
+        out = [math.log(w0 / TWO_PI), math.log(q), math.log(scale)]
+        if self.model == "coil":
+            out.append(-0.5 * math.log(self.l_h * self.c_self_f) - math.log(TWO_PI))
+        if self.r_dc_ohm is not None:
+            out.append(math.log(self.r_ohm / self.r_dc_ohm - 1.0))  # the skin share x
+        return np.array(out)
+
+
+class _Planned:
+    """The forward model and every reported value, as functions of the log parameters."""
+
+    def __init__(self, setup: Setup, expected: Expected):
+        self.setup, self.expected, self.topology = setup, expected, expected.topology
+        base = expected.internal(setup)
+        self.names = ["lnf0", "lnq", "lnscale"] + [f"ln_{e}" for e in self.topology.extras]
+        if not setup.is_calibrated:
+            self.names.append("lngain")
+            base = np.append(base, 0.0)
+        self.base = base
+
+    def _state(self, p: np.ndarray) -> tuple:
+        f0, q, scale = (math.exp(x) for x in p[:3])
+        extras = {e: math.exp(p[3 + i]) for i, e in enumerate(self.topology.extras)}
+        gain = math.exp(p[-1]) if not self.setup.is_calibrated else 1.0
+        return f0, q, scale, extras, gain
+
+    def response(self, p: np.ndarray, freq_hz: np.ndarray) -> np.ndarray:
+        f0, q, scale, extras, gain = self._state(p)
+        return predicted(
+            self.setup,
+            freq_hz,
+            f0,
+            q,
+            scale,
+            topology=self.topology,
+            extras=extras,
+            gain=gain,
+        )
+
+    def values(self, p: np.ndarray) -> dict:
+        f0, q, scale, extras, _ = self._state(p)
+        comps = self.topology.components(self.setup, f0, q, scale, extras)
+        out = {**comps, **self.topology.derived(self.setup, f0, q, comps)}
+        return {n: float(out[n]) for n in QUANTITIES if n in out}
+
+    def jacobian(self, freq_hz: np.ndarray) -> np.ndarray:
+        """Columns ``dm / d p_i`` at the expected circuit."""
+        return np.column_stack([self._difference(lambda p: self.response(p, freq_hz), i)
+                                for i in range(self.base.size)])  # fmt: skip
+
+    def log_gradients(self) -> dict:
+        """``d ln(value) / d p`` for every reported value."""
+        logs = lambda p: {n: math.log(abs(v)) for n, v in self.values(p).items()}  # noqa: E731
+        names = list(self.values(self.base))
+        cols = [self._difference(lambda p: np.array([logs(p)[n] for n in names]), i)
+                for i in range(self.base.size)]  # fmt: skip
+        grads = np.column_stack(cols)
+        return {n: grads[k] for k, n in enumerate(names)}
+
+    def _difference(self, func, i: int):
+        step = np.zeros(self.base.size)
+        step[i] = _STEP
+        return (func(self.base + step) - func(self.base - step)) / (2.0 * _STEP)
+
+
 def cramer_rao(
     setup: Setup,
     freq_hz: np.ndarray,
@@ -151,13 +300,16 @@ def cramer_rao(
     *,
     complex_data: bool = True,
     known: dict | None = None,
+    model: str = "series",
+    c_self_f: float | None = None,
+    r_dc_ohm: float | None = None,
 ) -> Bounds:
-    """The Cramer-Rao lower bound for a series R-L-C measured through a setup.
+    """The Cramer-Rao lower bound for a circuit measured through a setup.
 
     Parameters
     ----------
     setup : Setup
-        The bench arrangement.
+        The bench arrangement (any of :data:`fitkit.setups.BENCHES`).
     freq_hz : ndarray
         The sweep's frequencies.
     r_ohm, l_h, c_f : float
@@ -170,6 +322,9 @@ def cramer_rao(
     known : dict, optional
         Values measured otherwise, ``{"L": (value, stderr)}``, entered as independent
         information (a zero stderr counts as 1 ppm).
+    model, c_self_f, r_dc_ohm
+        The circuit model (``series``, ``tank``, ``coil``), a coil's self-capacitance and
+        its dc resistance (the loss then grows as sqrt(f)), as for :class:`Expected`.
 
     Returns
     -------
@@ -189,46 +344,39 @@ def cramer_rao(
     True
     """
     _check_noise(noise, complex_data)
+    planned = _Planned(setup, Expected(r_ohm, l_h, c_f, model, c_self_f, r_dc_ohm))
     f = np.asarray(freq_hz, dtype=np.float64)
-    f0, ql = resonance(setup, r_ohm, l_h, c_f)
-    w0, loop = TWO_PI * f0, r_ohm + setup.external_ohm
-    names = ["lnf0", "lnql", "lnloop"] + ([] if setup.is_calibrated else ["lngain"])
-    jac = _whitened_jacobian(setup, f, f0, ql, loop, noise, complex_data)[:, : len(names)]
-    grads = _log_gradients(loop, r_ohm, setup.external_ohm, len(names))
+    jac = _whitened(planned.response(planned.base, f), planned.jacobian(f), noise, complex_data)
+    grads = planned.log_gradients()
     priors = [_prior_row(name, v, s, grads) for name, (v, s) in (known or {}).items()]
     cov, null = _covariance(jac, priors)
-    values = {
-        "f0_hz": f0,
-        "Q_loaded": ql,
-        "loaded_bandwidth_hz": f0 / ql,
-        "R": r_ohm,
-        "L": l_h,
-        "C": c_f,
-        "Q": w0 * l_h / r_ohm,
-        "bandwidth_hz": r_ohm / (TWO_PI * l_h),
-    }
+    values = planned.values(planned.base)
     quantities = {}
-    for name in BOUNDED:
+    for name in values:
         g = grads[name]
         if null.size and np.linalg.norm(null.T @ g) > _LEAK * np.linalg.norm(g):
             quantities[name] = Quantity(name, None, None, _why_undetermined(setup))
             continue
         rel = math.sqrt(max(float(g @ cov @ g), 0.0))
         quantities[name] = Quantity(name, values[name], rel * abs(values[name]))
-    return Bounds(quantities, f, names, cov)
+    return Bounds(quantities, f, planned.names, cov)
 
 
-def resonance(setup: Setup, r_ohm: float, l_h: float, c_f: float) -> tuple:
+def resonance(
+    setup: Setup, r_ohm: float, l_h: float, c_f: float, model: str = "series", **extra
+) -> tuple:
     """Resonance (Hz) and loaded Q of the expected circuit on this bench.
+
+    ``extra`` takes ``c_self_f`` and ``r_dc_ohm`` as for :class:`Expected`.
 
     Raises
     ------
     SetupError
         When R, L or C is not above zero.
     """
-    _check_circuit(r_ohm, l_h, c_f)
-    w0 = 1.0 / math.sqrt(l_h * c_f)
-    return w0 / TWO_PI, w0 * l_h / (r_ohm + setup.external_ohm)
+    planned = _Planned(setup, Expected(r_ohm, l_h, c_f, model, **extra))
+    values = planned.values(planned.base)
+    return values["f0_hz"], values["Q_loaded"]
 
 
 def _check_circuit(r_ohm: float, l_h: float, c_f: float) -> None:
@@ -251,19 +399,8 @@ def _check_noise(noise: Noise, complex_data: bool) -> None:
         )
 
 
-def _whitened_jacobian(setup, f, f0, ql, loop, noise: Noise, complex_data: bool):
-    """Rows: d(residual)/d(ln f0, ln QL, ln loop, ln gain), each divided by its sigma."""
-    x = f / f0
-    y = x - 1.0 / x
-    z = loop * (1.0 + 1j * ql * y) - setup.external_ohm
-    w0 = TWO_PI * f0
-    m = setup.response(
-        series_rlc(f, loop - setup.external_ohm, ql * loop / w0, 1 / (w0 * ql * loop)), f
-    )
-    a, b, c, d = setup.coefficients(f)
-    dm_dz = (a * d - b * c) / (c * z + d) ** 2
-    dz = [-1j * loop * ql * (x + 1.0 / x), 1j * loop * ql * y, loop * (1.0 + 1j * ql * y)]
-    dm = np.column_stack([dm_dz * col for col in dz] + [m])
+def _whitened(m: np.ndarray, dm: np.ndarray, noise: Noise, complex_data: bool) -> np.ndarray:
+    """Rows: d(residual)/d(parameter), each divided by its sigma."""
     if noise.domain == "relative":
         dlog = dm / m[:, None]
         parts = [dlog.real / noise.sigma]
@@ -274,21 +411,6 @@ def _whitened_jacobian(setup, f, f0, ql, loop, noise: Noise, complex_data: bool)
     else:
         parts = [(np.conj(m)[:, None] * dm).real / (np.abs(m)[:, None] * noise.sigma)]
     return np.vstack(parts)
-
-
-def _log_gradients(loop: float, r_ohm: float, external_ohm: float, size: int) -> dict:
-    """d ln(value) / d(ln f0, ln QL, ln loop[, ln gain]) for every reported value."""
-    rows = {
-        "f0_hz": (1, 0, 0),
-        "Q_loaded": (0, 1, 0),
-        "loaded_bandwidth_hz": (1, -1, 0),
-        "R": (0, 0, loop / r_ohm),
-        "L": (-1, 1, 1),
-        "C": (-1, -1, -1),
-        "Q": (0, 1, -external_ohm / r_ohm),
-        "bandwidth_hz": (1, -1, external_ohm / r_ohm),
-    }
-    return {k: np.array(v + (0,) * (size - 3), dtype=float) for k, v in rows.items()}
 
 
 def _prior_row(name: str, value: float, stderr: float, grads: dict) -> np.ndarray:
@@ -336,7 +458,7 @@ class Plan:
     Attributes
     ----------
     target : str
-        The value asked about (a name in :data:`BOUNDED`).
+        The value asked about (a name in :data:`BOUNDED` or the model's extras).
     target_rel : float
         The requested relative standard deviation.
     shape : SweepShape or None
@@ -371,6 +493,7 @@ def plan_sweep(
     spacing: str = "linear",
     offset_bw: float = 0.0,
     known: dict | None = None,
+    **model,
 ) -> Plan:
     """Search spans and point counts for the cheapest sweep that reaches a precision.
 
@@ -378,6 +501,8 @@ def plan_sweep(
     ----------
     setup, r_ohm, l_h, c_f, noise, complex_data, known
         As for :func:`cramer_rao`.
+    **model
+        ``model``, ``c_self_f``, ``r_dc_ohm`` as for :func:`cramer_rao`.
     target : str
         The value to pin down, e.g. ``"L"`` or ``"Q"``.
     target_rel : float
@@ -396,14 +521,14 @@ def plan_sweep(
     SetupError
         An unknown target or a target precision that is not above zero.
     """
-    if target not in BOUNDED:
+    if target not in BOUNDED + OPTIONAL:
         raise SetupError(
             f"cannot plan for {target!r}",
-            remedy="name one of: " + ", ".join(BOUNDED),
+            remedy="name one of: " + ", ".join(BOUNDED + OPTIONAL),
         )
     if not (math.isfinite(target_rel) and target_rel > 0):
         raise SetupError(f"the target precision must be above zero, not {target_rel!r}")
-    f0, ql = resonance(setup, r_ohm, l_h, c_f)
+    f0, ql = resonance(setup, r_ohm, l_h, c_f, **model)
     best = None  # (rel, shape, bounds)
     for points in PLAN_POINTS:
         found = None
@@ -418,7 +543,13 @@ def plan_sweep(
                 noise,
                 complex_data=complex_data,
                 known=known,
+                **model,
             )
+            if target not in b.quantities:
+                raise SetupError(
+                    f"a {model.get('model', 'series')} circuit has no {QUANTITIES[target][1]}",
+                    remedy="plan for a value the model has, or choose the model that has it",
+                )
             rel = b.relative(target)
             if rel is None:
                 return Plan(target, target_rel, None, None, 1, b[target].reason)

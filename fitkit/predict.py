@@ -1,4 +1,4 @@
-"""Predictions from a fitted series R-L-C: retune, rejection of carriers, affordable loss.
+"""Predictions from a fitted series R-L-C or tank: retune, rejection, affordable loss.
 
 Every answer comes from the chain response of :mod:`fitkit.chain`, evaluated on floats or
 on correlated ``uncertainties`` values, so each carries the fit's error bars.
@@ -10,11 +10,21 @@ import math
 from dataclasses import dataclass, field
 
 from scipy.optimize import brentq
-from uncertainties import UFloat, umath, wrap
+from uncertainties import UFloat, wrap
 
-from fitkit.chain import CIRCUITS, TWO_PI, Chain, Pair, rejection_db
+from fitkit.chain import CIRCUITS, TWO_PI, Chain, rejection_db
 from fitkit.errors import PredictionError
 from fitkit.result import COMPONENTS, CircuitFit, nominal, std_dev
+from fitkit.tuning import (
+    BandCover,
+    band_cover,
+    check_capacitor,
+    check_hz,
+    check_range,
+    extremum_of,
+    resonance_hz,
+    tuning_c,
+)
 from fitkit.units import format_quantity
 
 
@@ -57,64 +67,23 @@ def check_values(values: dict) -> dict:
     return values
 
 
-def check_hz(freq_hz: float, what: str) -> float:
-    """Refuse a frequency that is zero, negative or not finite; return it as float."""
-    f = float(freq_hz)
-    if not (math.isfinite(f) and f > 0):
-        raise PredictionError(
-            f"the {what} {format_quantity(f, 'Hz')} is not a frequency above 0 Hz",
-            remedy="give a frequency above 0 (an offset must land above 0 Hz)",
-        )
-    return f
+def loaded_q(values: dict, chain: Chain, at_hz=None):
+    """The circuit's Q with the chain's resistance loading it, at ``at_hz``.
 
-
-def tuning_c(tune_hz: float, l_h, chain: Chain):
-    """The capacitance that tunes the chain to ``tune_hz``: ``C = 1 / (w (w L + X))``.
-
-    ``X`` is the reactance the chain adds in the loop: for series placement the load's own
-    reactance (a capacitance across the load makes it slightly negative), so the loop
-    reactance is zero at ``tune_hz``; for shunt placement 0, so the trap's null (the
-    circuit's own resonance, ``C = 1/(w^2 L)``) sits there.
-
-    Raises
-    ------
-    PredictionError
-        When no capacitance can tune the chain there.
+    ``at_hz`` is the chain's peak (or null); by default the circuit's own resonance. With
+    ``x = w L`` and ``Rloop`` the resistance the chain presents there
+    (:meth:`Chain.loop_ohm_at`, the load capacitance included): a series circuit
+    ``x / (R + Rloop)``; a tank, whose dynamic resistance ``R_D = x^2 / R`` the chain
+    damps, ``Q Rloop / (Rloop + R_D) = x Rloop / (R Rloop + x^2)`` with ``Q = x / R``
+    (derived from the parallel-circuit relations, as for the fit).
     """
-    w = TWO_PI * check_hz(tune_hz, "tuning frequency")
+    own = resonance_hz(values["L"], values["C"])
+    freq = own if at_hz is None else at_hz
+    loop = chain.loop_ohm_at(nominal(freq))
+    x = TWO_PI * freq * values["L"]
     if chain.circuit == "tank":
-        return 1.0 / (w * w * l_h)  # the tank's own resonance on the carrier
-    extra = 0.0
-    if chain.placement == "series" and chain.load_f:
-        load = 1.0 / Pair(1.0 / chain.load_ohm, w * chain.load_f)
-        extra = load.im
-    needed = w * l_h + extra
-    if nominal(needed) <= 0:
-        raise PredictionError(
-            f"no capacitance tunes this chain to {format_quantity(tune_hz, 'Hz')}: the "
-            "load's capacitance outweighs the coil there",
-            remedy="lower the load capacitance or use a larger L",
-        )
-    return 1.0 / (w * needed)
-
-
-def resonance_hz(l_h, c_f):
-    """The circuit's own resonance ``1 / (2 pi sqrt(L C))``."""
-    return 1.0 / (TWO_PI * umath.sqrt(l_h * c_f))
-
-
-def loaded_q(values: dict, chain: Chain):
-    """The circuit's Q with the chain's resistance loading it, at its own resonance.
-
-    A series circuit: ``w0 L / (R + Rloop)``. A tank, whose dynamic resistance
-    ``R_D = L / (R C)`` the chain's resistance damps: ``Q Rloop / (Rloop + R_D)`` with
-    ``Q = w0 L / R`` (derived from the parallel-circuit relations, as for the fit).
-    """
-    w0 = TWO_PI * resonance_hz(values["L"], values["C"])
-    if chain.circuit == "tank":
-        r_dynamic = values["L"] / (values["R"] * values["C"])
-        return (w0 * values["L"] / values["R"]) * chain.loop_ohm / (chain.loop_ohm + r_dynamic)
-    return w0 * values["L"] / (values["R"] + chain.loop_ohm)
+        return x * loop / (values["R"] * loop + x * x)
+    return x / (values["R"] + loop)
 
 
 def needed_q(power_ratio: float, freq_hz: float, f0_hz: float) -> float:
@@ -129,60 +98,6 @@ def needed_q(power_ratio: float, freq_hz: float, f0_hz: float) -> float:
     """
     y = freq_hz / f0_hz - f0_hz / freq_hz
     return math.sqrt(power_ratio - 1.0) / abs(y)
-
-
-def check_capacitor(c_f, c_range_f: tuple, tune_hz: float, l_h) -> None:
-    """Refuse a tuning capacitance outside the capacitor's range, naming what it reaches."""
-    c_min, c_max = _check_range(c_range_f)
-    c = nominal(c_f)
-    if c_min <= c <= c_max:
-        return
-    f_lo, f_hi = (nominal(resonance_hz(l_h, x)) for x in (c_max, c_min))
-    side = "above the capacitor's maximum" if c > c_max else "below the capacitor's minimum"
-    raise PredictionError(
-        f"tuning to {format_quantity(tune_hz, 'Hz')} needs C = {format_quantity(c, 'F')}, "
-        f"{side}; the range {format_quantity(c_min, 'F')} to {format_quantity(c_max, 'F')} "
-        f"tunes this L from about {format_quantity(f_lo, 'Hz')} to {format_quantity(f_hi, 'Hz')}",
-        remedy="choose a carrier in that span, a capacitor that reaches "
-        f"{format_quantity(c, 'F')}, or another coil",
-    )
-
-
-def _check_range(pair: tuple, unit: str = "F") -> tuple:
-    lo, hi = (float(x) for x in pair)
-    if not (math.isfinite(lo) and math.isfinite(hi) and 0 < lo < hi):
-        raise PredictionError(
-            f"the range {lo!r} to {hi!r} {unit} is not a range of positive values",
-            remedy="give the smaller value first, both above 0, e.g. 20p..500p",
-        )
-    return lo, hi
-
-
-@dataclass(frozen=True)
-class BandCover:
-    """Whether a capacitor range tunes a band, and the range that would."""
-
-    band_hz: tuple
-    c_needed_f: tuple  # (at the top of the band, at the bottom): ufloats
-    ratio_needed: float
-    ratio_given: float | None
-    covered: bool | None
-
-
-def band_cover(band_hz: tuple, l_h, chain: Chain, c_range_f: tuple | None = None) -> BandCover:
-    """The capacitance a band needs with this L, and whether ``c_range_f`` covers it.
-
-    A range covers the band when it reaches both ends, which needs at least
-    ``Cmax/Cmin >= (fmax/fmin)^2``.
-    """
-    f_lo, f_hi = _check_range(band_hz, "Hz")
-    needed = (tuning_c(f_hi, l_h, chain), tuning_c(f_lo, l_h, chain))
-    given = covered = None
-    if c_range_f is not None:
-        c_min, c_max = _check_range(c_range_f)
-        given = c_max / c_min
-        covered = c_min <= nominal(needed[0]) and nominal(needed[1]) <= c_max
-    return BandCover((f_lo, f_hi), needed, (f_hi / f_lo) ** 2, given, covered)
 
 
 @dataclass(frozen=True)
@@ -302,6 +217,8 @@ class Prediction:
     band: BandCover | None = None
     limit: LossLimit | None = None
     c_range_f: tuple | None = None
+    extremum_hz: UFloat | float | None = None  # the chain's peak (a trap's null), for plots
+    notes: tuple = ()  # call-outs: carriers that come out stronger than the wanted one, why
 
     def to_dict(self) -> dict:
         out = {
@@ -312,6 +229,11 @@ class Prediction:
             "tune_hz": self.tune_hz,
             "q_loaded": _udict(self.q_loaded, ""),
             "c_range_f": None if self.c_range_f is None else list(self.c_range_f),
+            "extremum": {
+                "kind": self.chain.extremum,
+                "freq_hz": None if self.extremum_hz is None else _udict(self.extremum_hz, "Hz"),
+            },
+            "notes": list(self.notes),
             "carriers": [
                 {
                     "freq_hz": r.carrier.freq_hz,
@@ -406,29 +328,72 @@ def predict(
     tune = wanted if tune_hz is None else check_hz(tune_hz, "tuning frequency")
     origin = "as given"
     if retune and (wanted_hz is not None or tune_hz is not None):
-        values["C"] = tuning_c(tune, values["L"], chain)
+        values["C"] = tuning_c(tune, values, chain)
         origin = "retuned"
         if c_range_f is not None:
-            check_capacitor(values["C"], c_range_f, tune, values["L"])
+            check_capacitor(values["C"], c_range_f, tune, values, chain)
     for carrier in carriers:
         check_hz(carrier.freq_hz, f"carrier {carrier.label or ''}".strip())
     results = [CarrierResult(c, rejection_db(c.freq_hz, wanted, values, chain)) for c in carriers]
-    band = None if band_hz is None else band_cover(band_hz, values["L"], chain, c_range_f)
+    band = None if band_hz is None else band_cover(band_hz, values, chain, c_range_f)
     limit = None
     if required_db is not None:
         limit = loss_limit(values, wanted, list(carriers), required_db, chain)
+    extremum = extremum_of(values, chain, tune)
     return Prediction(
         values,
         origin,
         chain,
         wanted,
         tune,
-        loaded_q(values, chain),
+        loaded_q(values, chain, extremum),
         results,
         band,
         limit,
-        None if c_range_f is None else _check_range(c_range_f),
+        None if c_range_f is None else check_range(c_range_f),
+        extremum,
+        tuple(_call_outs(results, wanted, extremum, chain, origin)),
     )
+
+
+def _call_outs(results: list, wanted_hz: float, extremum, chain: Chain, origin: str) -> list:
+    """A line for each carrier that comes out stronger than the wanted one, with the reason."""
+    notes = []
+    for r in results:
+        sir, rejection = nominal(r.sir_db), nominal(r.rejection_db)
+        if sir >= 0:
+            continue
+        name = format_quantity(r.carrier.freq_hz, "Hz")
+        if rejection >= 0:
+            notes.append(
+                f"the carrier at {name} arrives {r.carrier.level_db:.1f} dB above the wanted "
+                f"one and the chain takes only {rejection:.2f} dB off it: it comes out "
+                f"{-sir:.2f} dB stronger at the output"
+            )
+            continue
+        notes.append(
+            f"the carrier at {name} comes out {-rejection:.2f} dB stronger than the wanted "
+            f"one: {_off_peak(extremum, wanted_hz, chain, origin)}"
+        )
+    return notes
+
+
+def _off_peak(extremum, wanted_hz: float, chain: Chain, origin: str) -> str:
+    """Why a carrier gets through better than the wanted one."""
+    if extremum is None:
+        return f"the chain's response has no {chain.extremum} near the wanted carrier"
+    at = format_quantity(nominal(extremum), "Hz")
+    if not chain.passes:
+        return (
+            f"the circuit traps (its null sits at {at}, nearer the wanted carrier than this "
+            "one); tune the null onto the unwanted carrier with --tune-to"
+        )
+    if origin == "as given":
+        return f"with C as given the chain's response peaks at {at}, not on the wanted carrier"
+    off = nominal(extremum) - wanted_hz
+    if abs(off) > 1e-6 * wanted_hz:
+        return f"the chain's response peaks at {at}, where it was tuned, not on the wanted carrier"
+    return f"the chain's response rises again away from its peak at {at}"
 
 
 def value_and_error(x) -> tuple:

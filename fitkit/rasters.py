@@ -2,9 +2,9 @@
 
 A raster is a first and last carrier and a fixed spacing; the carriers are
 ``first + k * spacing``. Frequencies are kept in whole hertz so that channel 300 of the
-US FM band is exactly 107.9 MHz, not a float sum of 99 steps. Sources are tagged
-[read] (read when this list was made) or [from memory] (recalled; check before relying
-on it).
+US FM band is exactly 107.9 MHz, not a float sum of 99 steps. Each source is marked
+``read`` (read when this list was made) or not (recalled from memory; check before
+relying on it); the mark is for the code and docs, the printed source is the citation.
 """
 
 from __future__ import annotations
@@ -26,7 +26,9 @@ class Raster:
     first_hz, last_hz, spacing_hz : int
         The lowest and highest carrier and the channel spacing, in whole hertz.
     source : str
-        The published source, with [read] or [from memory].
+        The published source, as printed.
+    read : bool
+        The source was read when this list was made (else recalled: check it).
     first_channel : int or None
         The number the source gives the first carrier, where it numbers channels.
     """
@@ -36,6 +38,7 @@ class Raster:
     last_hz: int
     spacing_hz: int
     source: str
+    read: bool
     first_channel: int | None = None
 
     @property
@@ -111,7 +114,8 @@ RASTERS = {
             88_100_000,
             107_900_000,
             200_000,
-            "47 CFR 73.201 (US FM channels 201-300) [read]",
+            "47 CFR 73.201 (US FM channels 201-300)",
+            True,
             first_channel=201,
         ),
         # ITU Region 1 FM band 87.5 to 108 MHz on a 100 kHz raster, GE84 [from memory]
@@ -120,7 +124,8 @@ RASTERS = {
             87_500_000,
             108_000_000,
             100_000,
-            "ITU Geneva 1984 plan (GE84), Region 1 FM [from memory]",
+            "ITU Geneva 1984 plan (GE84), Region 1 FM",
+            False,
         ),
         # GE75 (ITU Regions 1 and 3): medium wave 531 to 1602 kHz on 9 kHz [read]
         Raster(
@@ -128,7 +133,8 @@ RASTERS = {
             531_000,
             1_602_000,
             9_000,
-            "ITU Geneva 1975 plan (GE75), Regions 1 and 3 medium wave [read]",
+            "ITU Geneva 1975 plan (GE75), Regions 1 and 3 medium wave",
+            True,
         ),
         # Region 2 (US) AM 540 to 1700 kHz on 10 kHz, 47 CFR 73.14 [from memory]
         Raster(
@@ -136,7 +142,8 @@ RASTERS = {
             540_000,
             1_700_000,
             10_000,
-            "47 CFR 73.14, US AM band (ITU Region 2) [from memory]",
+            "47 CFR 73.14, US AM band (ITU Region 2)",
+            False,
         ),
     )
 }

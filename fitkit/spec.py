@@ -107,12 +107,12 @@ class Spec:
         """The decision rule in one sentence, with its sources."""
         if self.rule == "simple":
             return (
-                "simple acceptance (ILAC-G8:09/2019, from memory): a value inside its "
+                "simple acceptance (ILAC-G8:09/2019): a value inside its "
                 "limits passes, outside fails; the uncertainty is not used"
             )
         return (
             f"guarded acceptance with a guard band of k = {self.coverage:g} standard "
-            "uncertainties (ILAC-G8:09/2019 and ISO 14253-1:2017, from memory): pass when "
+            "uncertainties (ILAC-G8:09/2019 and ISO 14253-1:2017): pass when "
             f"value +- {self.coverage:g}u lies inside the limits, fail when it lies wholly "
             "outside, otherwise undecided"
         )
@@ -258,28 +258,35 @@ def decide(value: float | None, stderr: float | None, limit: Limit, spec: Spec) 
     if spec.rule == "simple" or spec.coverage == 0:
         if low <= value <= high:
             return Verdict(PASS)
-        return Verdict(FAIL, _beyond(format_quantity(value, limit.unit), value, low, high, limit))
+        edge = high if value > high else low
+        shown, limit_text = _apart(value, edge, limit.unit, stderr)
+        return Verdict(FAIL, f"{shown} {_side(value, edge)} the limit {limit_text}")
     if stderr is None or not math.isfinite(stderr):
         return Verdict(UNDECIDED, "no uncertainty to guard with")
     band = spec.coverage * stderr
     if low <= value - band and value + band <= high:
         return Verdict(PASS)
+    edge = high if value + band > high else low
+    shown, limit_text = _apart(value, edge, limit.unit, band)
+    band_text = format_quantity(value, limit.unit, band).split(" +/- ")[1]
+    interval = f"{shown} +/- {band_text} (k = {spec.coverage:g})"
     if value + band < low or value - band > high:
-        interval = f"{format_quantity(value, limit.unit, band)} (k = {spec.coverage:g})"
-        return Verdict(FAIL, _beyond(interval, value, low, high, limit))
-    edge = low if value - band < low else high
-    interval = format_quantity(value, limit.unit, band)
-    # the limit printed to the interval's last digit
-    limit_text = format_quantity(edge, limit.unit, band).split(" +/- ")[0]
-    return Verdict(
-        UNDECIDED, f"{interval} (k = {spec.coverage:g}) straddles the limit {limit_text}"
-    )
+        return Verdict(FAIL, f"{interval} {_side(value, edge)} the limit {limit_text}")
+    return Verdict(UNDECIDED, f"{interval} straddles the limit {limit_text}")
 
 
-def _beyond(shown: str, value: float, low: float, high: float, limit: Limit) -> str:
-    """'<value> above the limit <high>' or '... below the limit <low>'."""
-    side, edge = ("above", high) if value > high else ("below", low)
-    return f"{shown} {side} the limit {format_quantity(edge, limit.unit)}"
+def _side(value: float, edge: float) -> str:
+    return "above" if value > edge else "below"
+
+
+def _apart(value: float, edge: float, unit: str, stderr: float | None) -> tuple:
+    """Value and limit printed to the same last digit: the uncertainty's second significant
+    digit, or one digit past the first where they differ, whichever is finer."""
+    steps = [x for x in (stderr, abs(value - edge)) if x is not None and math.isfinite(x) and x > 0]
+    if not steps:
+        return format_quantity(value, unit), format_quantity(edge, unit)
+    step = min(steps) * (1 + 1e-9)  # a difference of exactly 0.1 must not read as 0.0999
+    return tuple(format_quantity(x, unit, step).split(" +/- ")[0] for x in (value, edge))
 
 
 def judge(values: dict, spec: Spec) -> UnitVerdicts:

@@ -36,7 +36,7 @@ def test_kits_batch_gives_every_file_a_row_and_a_verdict(tmp_path):
     # kit 04 coil exactly on its +5 % limit, kit 10 file cut short
     assert rows["kit-07.csv"]["verdict"] == "fail"
     assert rows["kit-07.csv"]["C_verdict"].startswith("fail (")
-    assert "above the limit 2.31 nF" in rows["kit-07.csv"]["C_verdict"]
+    assert "above the limit 2.3100 nF" in rows["kit-07.csv"]["C_verdict"]
     assert rows["kit-04.csv"]["verdict"] == "undecided"
     assert "straddles the limit" in rows["kit-04.csv"]["L_verdict"]
     assert rows["kit-10.csv"]["status"] == "failed"

@@ -10,7 +10,8 @@ import pytest
 from click.testing import CliRunner
 
 from fitkit.cli import main
-from fitkit.drift import Change, compare, reading
+from fitkit.cli.drift_cmd import drift_lines
+from fitkit.drift import Change, Side, compare, corrections, reading
 
 DRIFT = Path(__file__).resolve().parent.parent / "sample_sweeps" / "drift"
 VOLTS = DRIFT.parent / "single_channel_volts" / "sweep.csv"
@@ -67,9 +68,56 @@ def test_drift_command_on_the_sample_pair():
     # sample_sweeps/make_kits.py: the same unit, its capacitor 6 % larger
     result = run("drift", DRIFT / "drifted.csv", "--against", DRIFT / "reference.csv")
     assert result.exit_code == 0, result.output
+    assert f"now       {DRIFT / 'drifted.csv'}" in result.output
+    assert f"reference {DRIFT / 'reference.csv'}" in result.output
     assert "f0 down 2.9%" in result.output
     assert "C has grown by about 6." in result.output
     assert "R within its uncertainty" in result.output
+    row = next(line for line in result.output.splitlines() if line.strip().startswith("C "))
+    assert "change     +10.9" in row and " pF +/- 0.0" in row  # the absolute change, with u
+    assert "to restore: C has grown by 10.9" in result.output
+    assert "put about 3.1" in result.output and "nF in series with it" in result.output
+
+
+def test_a_shrunk_capacitor_takes_the_difference_across_it():
+    # parallel capacitances add; series ones add as reciprocals (any circuits text)
+    shrunk = Change("C", 200e-12, 0.1e-12, 183.8e-12, 0.1e-12)
+    (line,) = corrections([shrunk])
+    assert line.endswith("add about 16.2 pF across it")
+    assert "-8.100% +/- 0.071%" in line
+    grown = Change("C", 180e-12, 0.04e-12, 190.9e-12, 0.04e-12)
+    series = 190.9e-12 * 180e-12 / (190.9e-12 - 180e-12)  # 3.152 nF restores 180 pF
+    assert f"put about {series * 1e9:.3g} nF in series" in corrections([grown])[0]
+    assert not corrections([Change("C", 180e-12, 1e-12, 181e-12, 1e-12)])  # z = 0.7
+
+
+def test_coil_corrections_in_turns_and_slug_direction():
+    # L ~ N^2 for a fixed winding (common practice): +4 % L is 2 % too many turns
+    grown = corrections([Change("L", 100e-6, 0.1e-6, 104.04e-6, 0.1e-6)])[0]
+    assert "turn it out" in grown and "take off about 2% of its turns" in grown
+    shrunk = corrections([Change("L", 100e-6, 0.1e-6, 96.04e-6, 0.1e-6)])[0]
+    assert "turn it further in" in shrunk and "add about 2% more turns" in shrunk
+
+
+def test_doubtful_marks_and_fit_warnings_reach_the_printout_and_json(tmp_path):
+    saved = json.loads(run("fit", DRIFT / "reference.csv", "--json").output)
+    saved["fit"]["warnings"] = ["the scatter grows with the reading: state the noise as relative"]
+    path = tmp_path / "warned.json"
+    path.write_text(json.dumps(saved))
+    printed = run("drift", DRIFT / "drifted.csv", "--against", path)
+    assert printed.exit_code == 0, printed.output
+    assert f"warning (reference, {path}): the scatter grows" in printed.output
+    data = json.loads(run("drift", DRIFT / "drifted.csv", "--against", path, "--json").output)
+    assert data["reference"]["warnings"] == saved["fit"]["warnings"]
+    assert data["reference"]["source"] == str(path)
+    assert data["unit"]["source"] == str(DRIFT / "drifted.csv")
+    now = Side("a.csv", {"C": (1.1e-9, 1e-12)}, (), {"C": "the fit hit a bound"})
+    (change,) = compare(now, Side("b.csv", {"C": (1e-9, 1e-12)}))
+    assert change.doubtful == "now: the fit hit a bound"
+    assert change.to_dict()["doubtful"] == "now: the fit hit a bound"
+    lines = drift_lines(now, Side("b.csv", {"C": (1e-9, 1e-12)}), [change], [], [])
+    assert lines[3].endswith("  doubtful")
+    assert "  doubtful: C: now: the fit hit a bound" in lines
 
 
 def test_drift_against_a_saved_fit_and_as_json(tmp_path):
@@ -80,6 +128,8 @@ def test_drift_against_a_saved_fit_and_as_json(tmp_path):
     data = json.loads(result.output)
     c = data["changes"]["C"]
     assert c["relative"] == pytest.approx(0.06, abs=0.005)
+    assert c["change"] == pytest.approx(c["value"] - c["reference"])
+    assert any(line.startswith("C has grown by") for line in data["corrections"])
     assert c["change_u"] == pytest.approx(math.hypot(c["value_u"], c["reference_u"]))
     assert c["significant"] is True
 
@@ -88,6 +138,7 @@ def test_drift_against_nominals_of_a_relative_sweep():
     result = run("drift", VOLTS, "--nominal", "f0=510k", "--nominal", "Q_loaded=3.2")
     assert result.exit_code == 0, result.output
     assert "cannot tell whether L or C changed" in result.output
+    assert "reference nominal values (--nominal)" in result.output
 
 
 @pytest.mark.parametrize(

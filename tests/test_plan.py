@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from fitkit.circuits import TWO_PI, series_rlc
+from fitkit.circuits import TWO_PI, coil_in_series, series_rlc, tank
 from fitkit.errors import SetupError
 from fitkit.fitting import fit_sweep
 from fitkit.noise import Noise
@@ -184,3 +184,71 @@ def test_bound_agrees_with_monte_carlo_scatter_of_fits(r, shape, complex_data, s
     for name, s, e in zip(names, scatter, typical):
         assert s / b[name].stderr == pytest.approx(1.0, abs=0.10), name
         assert e / b[name].stderr == pytest.approx(1.0, abs=0.10), name  # the fit's own
+
+
+BENCHES = {
+    "divider": Setup("divider", "ratio", sense_ohm=47.0, probe_f=15e-12),
+    "across": Setup("across", "ratio", feed_ohm=100e3),
+    "impedance": Setup("impedance", "impedance"),
+    "reflection": Setup("reflection", "s11"),
+    "series-through": Setup("series-through", "s21"),
+    "shunt-through": Setup("shunt-through", "s21"),
+}
+CIRCUITS = {  # model: (its impedance in the component values, the values)
+    "series": (lambda f, p: series_rlc(f, *p), (5.0, 100e-6, 1e-9)),
+    "tank": (lambda f, p: tank(f, *p), (12.0, 330e-6, 470e-12)),
+    "coil": (lambda f, p: coil_in_series(f, *p), (5.0, 100e-6, 1e-9, 5e-12)),
+}
+
+
+@pytest.mark.parametrize("bench", list(BENCHES))
+@pytest.mark.parametrize("model", list(CIRCUITS))
+def test_every_model_and_bench_matches_a_direct_finite_difference_fisher_matrix(model, bench):
+    # the circuit's own impedance (fitkit.circuits, the handbook formulas) in its component
+    # values, read through the bench's map: a different route to the same bound
+    setup = BENCHES[bench]
+    impedance, params = CIRCUITS[model]
+    extra = {"c_self_f": params[3]} if model == "coil" else {}
+    f0, ql = resonance(setup, *params[:3], model, **extra)
+    f = SweepShape(3.0, 301).frequencies(f0, ql)
+    sigma = 1e-3
+
+    def response(p, freq):
+        return setup.response(impedance(freq, p), freq)
+
+    cov = np.linalg.inv(_fd_fisher(response, np.array(params), f, sigma))
+    b = cramer_rao(setup, f, *params[:3], Noise("additive", sigma), model=model, **extra)
+    for i, name in enumerate("RLC"):
+        assert b[name].stderr == pytest.approx(np.sqrt(cov[i, i]), rel=1e-3), name
+    if model == "coil":
+        assert b["C_self"].stderr == pytest.approx(np.sqrt(cov[3, 3]), rel=1e-3)
+    if model == "tank":
+        assert "R_dynamic" in b.quantities
+
+
+def test_a_loss_growing_as_the_root_of_frequency_is_planned_for():
+    # r(f) = R_dc + k sqrt(f), R = 5 ohm at f0 and 2 ohm at dc (skin effect): the direct
+    # route in (R at f0, L, C, R_dc)
+    setup = BENCHES["divider"]
+    f0, ql = resonance(setup, 5.0, 100e-6, 1e-9, r_dc_ohm=2.0)
+    f = SweepShape(3.0, 301).frequencies(f0, ql)
+
+    def response(p, freq):
+        r = p[3] + (p[0] - p[3]) * np.sqrt(freq / f0)
+        return setup.response(series_rlc(freq, r, p[1], p[2]), freq)
+
+    p0 = np.array([5.0, 100e-6, 1e-9, 2.0])
+    cov = np.linalg.inv(_fd_fisher(response, p0, f, 1e-3))
+    b = cramer_rao(setup, f, 5.0, 100e-6, 1e-9, Noise("additive", 1e-3), r_dc_ohm=2.0)
+    assert b["R"].stderr == pytest.approx(np.sqrt(cov[0, 0]), rel=1e-3)
+    assert b["R_dc"].stderr == pytest.approx(np.sqrt(cov[3, 3]), rel=1e-3)
+
+
+def test_a_tank_on_an_across_bench_is_loaded_by_its_feed():
+    # a tank's Q loaded by a resistance across it: Q Rp / (Rp + R_D) with R_D = L / (R C)
+    # (parallel-circuit relations, from memory)
+    r, l_h, c_f, feed = 12.0, 330e-6, 470e-12, 100e3
+    f0, ql = resonance(BENCHES["across"], r, l_h, c_f, "tank")
+    q = TWO_PI * f0 * l_h / r
+    assert ql == pytest.approx(q * feed / (feed + l_h / (r * c_f)), rel=1e-9)
+    assert f0 == pytest.approx(1 / (TWO_PI * np.sqrt(l_h * c_f)), rel=1e-12)

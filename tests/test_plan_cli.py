@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import re
 
+import numpy as np
 import pytest
 from click.testing import CliRunner
 
@@ -112,3 +113,63 @@ def test_help_names_the_options():
     assert out.exit_code == 0
     for option in ("--target", "--span", "--points", "--spacing", "--noise", "--centre"):
         assert option in out.output
+
+
+def test_an_analyser_bench_alone_plans_a_tank_and_says_so():
+    out = run("--bench", "impedance", "--model", "tank", "--r", "12", "--l", "330u",
+              "--c", "470p", "--noise", "0.2%")  # fmt: skip
+    assert out.exit_code == 0, out.output
+    assert "model    parallel tank (coil with loss across C)" in out.output
+    assert "bench    impedance read directly; reads impedance" in out.output
+    # the tank's own resonance 1/(2 pi sqrt(LC)) = 404.1 kHz and Q = w0 L / R = 69.8
+    assert "404.1 kHz" in row(out.output, "f0 (resonance)")
+    assert "69.8" in row(out.output, "Q (loaded")
+    assert "dynamic resistance" in out.output
+
+
+def test_a_sweep_given_by_its_ends():
+    out = run(*CIRCUIT, "--noise", "1e-3", "--start", "450k", "--stop", "560k", "--points", "111")
+    assert out.exit_code == 0, out.output
+    assert "111 points, linear, 450 kHz to 560 kHz" in row(out.output, "sweep")
+    setup = Setup("divider", "ratio", sense_ohm=50.0)
+    b = cramer_rao(setup, np.linspace(450e3, 560e3, 111), 5.0, 100e-6, 1e-9,
+                   Noise("additive", 1e-3))  # fmt: skip
+    printed = float(re.search(r"([0-9.]+)%", row(out.output, "L ")).group(1))
+    assert printed == pytest.approx(100 * b.relative("L"), rel=2e-3)
+
+
+@pytest.mark.parametrize(
+    "args, message",
+    [
+        (("--start", "450k"), "either by --start and --stop"),
+        (("--start", "450k", "--stop", "560k", "--span", "2"), "either by --start and --stop"),
+        (("--start", "560k", "--stop", "450k"), "does not run upwards"),
+        (("--model", "coil"), "needs its expected self-capacitance"),
+    ],
+)
+def test_bad_sweep_ends_and_models_are_refused(args, message):
+    out = run(*CIRCUIT, "--noise", "1e-3", *args)
+    assert out.exit_code == 2
+    assert message in out.output
+
+
+def test_the_reading_follows_the_bench_in_a_setup_file(tmp_path):
+    setup = tmp_path / "fitkit-setup.toml"
+    setup.write_text('[bench]\narrangement = "reflection"\nreference_impedance = "50"\n')
+    out = run("--setup", setup, "--r", "5", "--l", "10u", "--c", "100p", "--noise", "1e-3")
+    assert out.exit_code == 0, out.output
+    assert "reads s11 (the bench's reading)" in row(out.output, "bench")
+    # S11 loads the series circuit with Z0: Q_L = w0 L / (R + Z0) (common practice)
+    q_loaded = 2 * 3.141592653589793 * 5.0329e6 * 10e-6 / 55.0
+    assert float(row(out.output, "Q (loaded").split()[-3]) == pytest.approx(q_loaded, rel=1e-3)
+
+
+def test_a_coil_with_skin_effect_is_named_in_the_plan():
+    out = run(*CIRCUIT, "--noise", "1e-3", "--model", "coil", "--c-self", "5p",
+              "--r-dc", "2")  # fmt: skip
+    assert out.exit_code == 0, out.output
+    assert row(out.output, "model").strip() == (
+        "model    coil with self-capacitance, in series with C, self-capacitance 5 pF, "
+        "loss growing as R_dc + k sqrt(f) from 2 ohm"
+    )
+    assert "C self (coil self-capacitance)" in out.output

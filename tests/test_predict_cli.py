@@ -35,7 +35,7 @@ def saved_fit(tmp_path_factory):
 def test_saved_fit_prints_tuning_and_rejections(saved_fit):
     out = run("--saved-fit", saved_fit, "--wanted", "999k", "--raster", "mw-9k", *CHAIN)
     assert out.exit_code == 0, out.output
-    assert "retuned, tuned to 999 kHz" in out.output
+    assert "retuned: the chain's response peaks at 999 kHz" in out.output
     assert "loaded Q" in out.output
     assert out.output.count(" dB +/- ") >= 8  # rejection and S/I for four neighbours
     assert "(mw-9k)" in out.output
@@ -145,3 +145,20 @@ def test_starting_points_and_chains_are_checked(saved_fit):
     assert no_chain.exit_code == 2 and "no chain" in no_chain.output
     short = run("--value", "L=220u", "--value", "C=1n", *CHAIN)
     assert short.exit_code == 2 and "lack R" in short.output
+
+
+def test_the_reported_tank_is_tuned_on_its_chain_and_a_stronger_neighbour_is_named():
+    args = (
+        *("--value", "R=4", "--value", "L=240u", "--value", "C=200p", "--circuit", "tank"),
+        *("--wanted", "1008k", "--carrier", "+9k", "--carrier", "-9k", "--placement", "shunt"),
+        *("--chain-source-r", "100k", "--chain-load-r", "1M", "--chain-load-c", "20p"),
+    )
+    out = run(*args)
+    assert out.exit_code == 0, out.output
+    assert "retuned: the chain's response peaks at 1.008 MHz" in out.output
+    assert "note" not in out.output
+    as_given = run(*args, "--as-fitted", "--json")
+    data = json.loads(as_given.output)
+    assert data["extremum"]["kind"] == "peak"
+    assert data["extremum"]["freq_hz"]["value"] == pytest.approx(692.6e3, rel=1e-3)
+    assert "comes out 0.22 dB stronger" in data["notes"][0]

@@ -7,7 +7,8 @@ import pytest
 
 from fitkit.chain import chain_from_setup, rejection_db
 from fitkit.fitting import fit_sweep
-from fitkit.predict import Carrier, loss_limit, predict, tuning_c, values_from_fit
+from fitkit.predict import Carrier, loss_limit, predict, values_from_fit
+from fitkit.tuning import tuning_c
 from tests.synthetic import SETUPS, make_sweep
 
 SAMPLES = 4000
@@ -40,7 +41,7 @@ def test_rejection_error_matches_monte_carlo(fit, retune):
     propagated = p.carriers[0].rejection_db.std_dev
     sampled = []
     for r, l_h, c_f in draws(fit, seed=5):
-        c_used = tuning_c(wanted, l_h, chain) if retune else c_f
+        c_used = tuning_c(wanted, {"R": r, "L": l_h}, chain) if retune else c_f
         sampled.append(rejection_db(unwanted, wanted, {"R": r, "L": l_h, "C": c_used}, chain))
     assert propagated > 0
     assert propagated == pytest.approx(np.std(sampled, ddof=1), rel=0.05)

@@ -105,3 +105,40 @@ def test_tank_and_coil_values_can_be_specified(tmp_path):
     assert verdicts.values["R_dynamic"].word == "pass"
     # a unit fitted with a model that has no self-resonance: not determined, so undecided
     assert verdicts.values["f_self"].text().startswith("undecided")
+
+
+@pytest.mark.parametrize(
+    ("value", "u", "rule", "expected"),
+    [
+        # half a nanohenry over 493.5 uH: the digits must show it (one past where they differ)
+        (493.5005e-6, 0.13e-6, "simple", "fail (493.50050 uH above the limit 493.50000 uH)"),
+        (
+            493.5005e-6,
+            0.13e-6,
+            "guarded",
+            "undecided (493.50050 uH +/- 0.26 uH (k = 2) straddles the limit 493.50000 uH)",
+        ),
+        # far outside: the uncertainty sets the digits, the limit printed to the same
+        (
+            2.44283e-9,
+            0.0007e-9,
+            "guarded",
+            "fail (2.4428 nF +/- 0.0014 nF (k = 2) above the limit 2.3100 nF)",
+        ),  # fmt: skip
+        (2.0e-9, None, "simple", "fail (2.000 nF below the limit 2.090 nF)"),
+    ],
+)
+def test_verdicts_print_enough_digits_to_show_the_side_of_the_limit(value, u, rule, expected):
+    # 470 uH +- 5 % and 2.2 nF +- 5 % (worked by hand)
+    unit, limits = ("H", (446.5e-6, 493.5e-6)) if value > 1e-7 else ("F", (2.09e-9, 2.31e-9))
+    lim = Limit("X", "X", unit, *limits)
+    text = decide(value, u, lim, Spec((lim,), rule)).text()
+    assert text == expected
+    shown, edge = (float(x.split()[0]) for x in (text.split("(")[1], text.split("limit ")[1]))
+    assert (shown > edge) == (value > limits[1])  # the printed numbers show the side
+
+
+def test_the_printed_rule_names_its_sources_without_saying_from_memory():
+    for rule in ("simple", "guarded"):
+        text = Spec((L_LIMIT,), rule).rule_text()
+        assert "ILAC-G8:09/2019" in text and "memory" not in text

@@ -11,21 +11,29 @@ from fitkit.batch import fit_with
 from fitkit.cli.base import main, reports_errors
 from fitkit.cli.batch_cmd import fit_settings
 from fitkit.cli.fit_cmd import bench_options
-from fitkit.drift import SIGNIFICANT_Z, compare, fit_values, reading
+from fitkit.drift import (
+    SIGNIFICANT_Z,
+    Side,
+    compare,
+    corrections,
+    reading,
+    side_of_fit,
+    signed_percent,
+)
 from fitkit.errors import InputError
 from fitkit.result import QUANTITIES, load_fit
 from fitkit.spec import SPEC_NAMES, load_spec
 from fitkit.units import format_quantity, parse_quantity
 
 
-def _values_of(path: str, fit_options: dict) -> dict:
-    """Values of a saved fit (.json) or of a sweep fitted now."""
+def _side_of(path: str, fit_options: dict) -> Side:
+    """A saved fit (.json) or a sweep fitted now, with its warnings."""
     if Path(path).suffix.lower() == ".json":
-        return fit_values(load_fit(path))
-    return fit_values(fit_with(path, fit_options)[0])
+        return side_of_fit(load_fit(path), path)
+    return side_of_fit(fit_with(path, fit_options)[0], path)
 
 
-def _nominals(typed: tuple, spec_file: str | None) -> dict:
+def _nominals(typed: tuple, spec_file: str | None) -> Side:
     out = {}
     if spec_file:
         out.update({q: (v, 0.0) for q, v in load_spec(spec_file).nominals().items()})
@@ -39,7 +47,8 @@ def _nominals(typed: tuple, spec_file: str | None) -> dict:
         quantity, unit = SPEC_NAMES[name.strip()]
         value = float(text) if not unit else parse_quantity(text, unit, what=f"nominal {name}")
         out[quantity] = (value, 0.0)
-    return out
+    where = ", ".join(([spec_file] if spec_file else []) + (["--nominal"] if typed else []))
+    return Side(f"nominal values ({where})", out)
 
 
 @main.command("drift")
@@ -66,36 +75,48 @@ def drift_command(unit, reference, nominal, spec_file, noise, as_json, **opts):
             remedy="use --against FIT_OR_SWEEP, or nominal values (--nominal, --spec)",
         )
     fit_options = fit_settings(opts, noise)
-    ref = _values_of(reference, fit_options) if reference else _nominals(nominal, spec_file)
-    changes = compare(_values_of(unit, fit_options), ref)
+    ref = _side_of(reference, fit_options) if reference else _nominals(nominal, spec_file)
+    now = _side_of(unit, fit_options)
+    changes = compare(now, ref)
     if not changes:
         raise InputError(
             "the unit and the reference share no determined value",
             remedy="give nominals for values the unit's sweep determines (f0, Q_loaded, ...)",
             path=unit,
         )
-    words = reading(changes)
+    words, fixes = reading(changes), corrections(changes)
     if as_json:
-        data = {"changes": {c.name: c.to_dict() for c in changes}, "reading": words}
+        data = {
+            "unit": now.to_dict(),
+            "reference": ref.to_dict(),
+            "changes": {c.name: c.to_dict() for c in changes},
+            "reading": words,
+            "corrections": fixes,
+        }
         click.echo(json.dumps(data, indent=2, allow_nan=False))
         return
-    click.echo(f"{unit} against {reference or 'nominal values'}")
+    click.echo("\n".join(drift_lines(now, ref, changes, words, fixes)))
+
+
+def drift_lines(now: Side, ref: Side, changes: list, words: list, fixes: list) -> list[str]:
+    """The printed comparison: both sources, a row per value, warnings, reading, corrections."""
+    lines = [f"now       {now.source}", f"reference {ref.source}", ""]
     for c in changes:
         unit_name, label = QUANTITIES[c.name]
-        ref_u = c.reference_u or None
-        click.echo(
-            f"  {label:<33} {format_quantity(c.reference, unit_name, ref_u):>28} -> "
-            f"{format_quantity(c.value, unit_name, c.value_u or None):>28}  "
-            f"change {_percent(c.relative, c.u / abs(c.reference)):>20}  "
-            f"z = {c.z:+.1f}"
+        change = format_quantity(c.delta, unit_name, c.u or None)
+        relative = signed_percent(c.relative, c.u / abs(c.reference))
+        lines.append(
+            f"  {label:<33} {format_quantity(c.reference, unit_name, c.reference_u or None):>28} "
+            f"-> {format_quantity(c.value, unit_name, c.value_u or None):>28}  change "
+            f"{('+' if c.delta > 0 else '') + change:>27} ({relative})  z = {c.z:+.1f}"
+            + ("  doubtful" if c.doubtful else "")
         )
-    click.echo(f"  (a change counts when |z| > {SIGNIFICANT_Z:g}; u = sqrt(u^2 + u_ref^2))")
-    for line in words:
-        click.echo(f"  reading: {line}")
-
-
-def _percent(relative: float, relative_u: float) -> str:
-    """'-2.8720% +/- 0.0020%': the change to the precision its uncertainty allows."""
-    value, _, u = format_quantity(relative * 100, "", relative_u * 100).partition(" +/- ")
-    sign = "+" if relative >= 0 and not value.startswith("-") else ""
-    return f"{sign}{value}% +/- {u}%" if u else f"{sign}{value}%"
+    lines.append(f"  (a change counts when |z| > {SIGNIFICANT_Z:g}; u = sqrt(u^2 + u_ref^2))")
+    for c in changes:
+        if c.doubtful:
+            lines.append(f"  doubtful: {QUANTITIES[c.name][1]}: {c.doubtful}")
+    for side, which in ((now, "now"), (ref, "reference")):
+        lines.extend(f"  warning ({which}, {side.source}): {w}" for w in side.warnings)
+    lines.extend(f"  reading: {line}" for line in words)
+    lines.extend(f"  to restore: {line}" for line in fixes)
+    return lines

@@ -16,9 +16,10 @@ from fitkit.cli.fit_cmd import bench_options, overrides_from_options
 from fitkit.errors import SetupError
 from fitkit.noise import parse_noise
 from fitkit.plan import (
-    BOUNDED,
+    READING_OF_BENCH,
     SPACINGS,
     Bounds,
+    Expected,
     Plan,
     SweepShape,
     cramer_rao,
@@ -29,6 +30,7 @@ from fitkit.plan import resonance as resonance_of
 from fitkit.result import QUANTITIES
 from fitkit.setups import Setup
 from fitkit.sweep import KINDS, Sweep
+from fitkit.topologies import TOPOLOGIES
 from fitkit.units import format_quantity, parse_quantity
 
 #: short names accepted by --target
@@ -41,7 +43,11 @@ TARGET_NAMES = {
     "QL": "Q_loaded",
     "B": "bandwidth_hz",
     "BL": "loaded_bandwidth_hz",
+    "RD": "R_dynamic",
+    "Cself": "C_self",
+    "fself": "f_self_hz",
 }
+DEFAULT_SPAN_BW = 3.0
 
 
 @main.command("plan")
@@ -51,11 +57,24 @@ TARGET_NAMES = {
 @click.option("--f0", "f0_text", help="Expected resonance (with --q and one of --l/--c).")
 @click.option("--q", "q_value", type=float, help="Expected circuit Q, unloaded (with --f0).")
 @click.option(
+    "--model",
+    type=click.Choice([n for n in TOPOLOGIES if not n.endswith("-sqrtf")]),
+    default="series",
+    show_default=True,
+    help="The circuit, as for 'fitkit fit --model': series R-L-C, tank (coil with loss "
+    "across C) or coil (with self-capacitance, in series with C).",
+)
+@click.option("--c-self", "c_self_text", help="Expected self-capacitance of a coil (--model coil).")
+@click.option(
+    "--r-dc",
+    "r_dc_text",
+    help="The coil's dc resistance (an ohmmeter's reading, below --r): the loss then grows "
+    "as R_dc + k sqrt(f) to R at the resonance (the -sqrtf models of 'fitkit fit').",
+)
+@click.option(
     "--kind",
     type=click.Choice(KINDS),
-    default="ratio",
-    show_default=True,
-    help="What the instrument will read.",
+    help="What the instrument will read [default: what the bench reads; ratio on a divider].",
 )
 @bench_options
 @click.option(
@@ -67,11 +86,11 @@ TARGET_NAMES = {
 @click.option("--magnitude-only", is_flag=True, help="Plan for magnitude readings (no phase).")
 @click.option(
     "--span",
-    default=3.0,
-    show_default=True,
     type=float,
-    help="Half-span in loaded bandwidths (+-SPAN).",
+    help=f"Half-span in loaded bandwidths (+-SPAN) [default: {DEFAULT_SPAN_BW:g}].",
 )
+@click.option("--start", "start_text", help="First frequency of the sweep (with --stop).")
+@click.option("--stop", "stop_text", help="Last frequency of the sweep (with --start).")
 @click.option("--points", default=201, show_default=True, type=int, help="Points per sweep.")
 @click.option("--spacing", type=click.Choice(SPACINGS), default="linear", show_default=True)
 @click.option("--centre", "centre_text", help="Sweep centre frequency [default: the resonance].")
@@ -82,31 +101,44 @@ TARGET_NAMES = {
     "PRECISION, e.g. L=0.5%.",
 )
 @reports_errors
-def plan_command(noise, magnitude_only, span, points, spacing, centre_text, target, **opts):
+def plan_command(noise, magnitude_only, points, spacing, target, **opts):
     """Print the Cramer-Rao bound: the smallest standard deviations of R, L, C, f0 and Q
     that any fit of the planned sweep can reach, and with --target the sweep to take.
 
-    Values the planned sweep cannot determine at all are named, with the reason.
-    Exit status 2 on bad input.
+    Every model and bench of 'fitkit fit' is covered; the reading kind follows from the
+    bench unless --kind says otherwise. The sweep is --span loaded bandwidths either side
+    of --centre (the resonance by default), or --start to --stop. Values the planned
+    sweep cannot determine at all are named, with the reason. Exit status 2 on bad input.
     """
     complex_data = not magnitude_only
-    stand_in = _stand_in_sweep(opts.pop("kind"), complex_data)
     file = load_bench_file(opts["setup_file"]) if opts.get("setup_file") else {}
-    setup = build_setup(stand_in, file.get("bench"), overrides_from_options(opts))
+    overrides = overrides_from_options(opts)
+    kind, kind_from = _reading_kind(opts.pop("kind"), overrides, file.get("bench"))
+    stand_in = _stand_in_sweep(kind, complex_data)
+    setup = build_setup(stand_in, file.get("bench"), overrides)
     known = known_values(file.get("known"), tuple(opts.get("known", ())))
-    r_ohm, l_h, c_f = _circuit(opts, setup)
-    f0, ql = resonance_of(setup, r_ohm, l_h, c_f)
-    centre = parse_quantity(centre_text, "Hz", what="centre") if centre_text else f0
-    if not centre > 0:
-        raise SetupError(f"the sweep centre must be above 0 Hz, not {centre_text!r}")
-    shape = SweepShape(span, points, spacing, hz_to_bandwidths(centre, f0, ql))
+    expected = _expected(opts, setup)
+    model = {"model": expected.model, "c_self_f": expected.c_self_f,
+             "r_dc_ohm": expected.r_dc_ohm}  # fmt: skip
+    r_ohm, l_h, c_f = expected.r_ohm, expected.l_h, expected.c_f
+    f0, ql = resonance_of(setup, r_ohm, l_h, c_f, **model)
+    shape = _shape(opts, points, spacing, f0, ql)
     noise_model = parse_noise(noise, stand_in)
     freq_hz = shape.frequencies(f0, ql)
     bounds = cramer_rao(
-        setup, freq_hz, r_ohm, l_h, c_f, noise_model, complex_data=complex_data, known=known
+        setup,
+        freq_hz,
+        r_ohm,
+        l_h,
+        c_f,
+        noise_model,
+        complex_data=complex_data,
+        known=known,
+        **model,
     )
     click.echo(f"fitkit {__version__}: Cramer-Rao lower bound for a planned sweep")
-    click.echo(f"  bench    {setup.describe()}")
+    click.echo(f"  model    {expected.describe()}")
+    click.echo(f"  bench    {setup.describe()}; reads {setup.kind} ({kind_from})")
     click.echo(f"  sweep    {_sweep_text(shape, freq_hz)}")
     click.echo(
         f"  data     {'complex' if complex_data else 'magnitude only'}, noise "
@@ -128,6 +160,7 @@ def plan_command(noise, magnitude_only, span, points, spacing, centre_text, targ
             spacing=spacing,
             offset_bw=shape.offset_bw,
             known=known,
+            **model,
         )
         click.echo("")
         click.echo(plan_text(found, f0, ql))
@@ -140,7 +173,56 @@ def _stand_in_sweep(kind: str, complex_data: bool) -> Sweep:
     return Sweep(np.array([1.0, 2.0]), values, kind, source="<planned sweep>")
 
 
-def _circuit(opts: dict, setup: Setup) -> tuple:
+def _reading_kind(kind: str | None, overrides: dict, file_bench: dict | None) -> tuple:
+    """The reading kind, and where it came from: --kind, else the bench's own reading."""
+    if kind:
+        return kind, "as given with --kind"
+    bench = overrides.get("bench") or (file_bench or {}).get("arrangement")
+    if bench in READING_OF_BENCH:
+        return READING_OF_BENCH[bench], "the bench's reading"
+    return "ratio", "the default reading"
+
+
+def _expected(opts: dict, setup: Setup) -> Expected:
+    """The expected circuit: the model, and R, L, C from (R, L, C) or (f0, Q, L or C)."""
+    extra = {
+        "c_self_f": _optional(opts.get("c_self_text"), "F", "--c-self"),
+        "r_dc_ohm": _optional(opts.get("r_dc_text"), "ohm", "--r-dc"),
+    }
+    return Expected(*_circuit(opts), opts.get("model") or "series", **extra)
+
+
+def _optional(text, unit: str, option: str) -> float | None:
+    return None if text is None else parse_quantity(text, unit, what=option)
+
+
+def _shape(opts: dict, points: int, spacing: str, f0: float, ql: float) -> SweepShape:
+    """The sweep's shape from --span and --centre, or from --start and --stop."""
+    start, stop = opts.get("start_text"), opts.get("stop_text")
+    span, centre_text = opts.get("span"), opts.get("centre_text")
+    if start is None and stop is None:
+        centre = parse_quantity(centre_text, "Hz", what="centre") if centre_text else f0
+        if not centre > 0:
+            raise SetupError(f"the sweep centre must be above 0 Hz, not {centre_text!r}")
+        span = DEFAULT_SPAN_BW if span is None else span
+        return SweepShape(span, points, spacing, hz_to_bandwidths(centre, f0, ql))
+    if start is None or stop is None or span is not None or centre_text:
+        raise SetupError(
+            "a sweep is given either by --start and --stop, or by --span and --centre",
+            remedy="give both --start and --stop (e.g. --start 300k --stop 400k) and "
+            "leave out --span and --centre",
+        )
+    lo, hi = (parse_quantity(t, "Hz", what=w) for t, w in ((start, "--start"), (stop, "--stop")))
+    if not 0 < lo < hi:
+        raise SetupError(
+            f"the sweep from {start!r} to {stop!r} does not run upwards from above 0 Hz",
+            remedy="give --start below --stop, both above 0 Hz",
+        )
+    ends = [hz_to_bandwidths(f, f0, ql) for f in (lo, hi)]
+    return SweepShape(0.5 * (ends[1] - ends[0]), points, spacing, 0.5 * (ends[0] + ends[1]))
+
+
+def _circuit(opts: dict) -> tuple:
     """R, L, C from (R, L, C) or (f0, Q and one of L, C)."""
     given = {k: opts.get(f"{k}_text") for k in ("r", "l", "c", "f0")}
     units = {"r": "ohm", "l": "H", "c": "F", "f0": "Hz"}
@@ -186,16 +268,16 @@ def _sweep_text(shape: SweepShape, freq_hz: np.ndarray) -> str:
     )
     return (
         f"{shape.points} points, {shape.spacing}, {format_quantity(freq_hz[0], 'Hz')} to "
-        f"{format_quantity(freq_hz[-1], 'Hz')} (+-{shape.span_bw:g} loaded bandwidths, {about})"
+        f"{format_quantity(freq_hz[-1], 'Hz')} (+-{shape.span_bw:.3g} loaded bandwidths, {about})"
     )
 
 
 def bounds_table(bounds: Bounds) -> str:
     """Expected values, their bounds and the relative bounds; gaps with their reasons."""
-    width = max(len(QUANTITIES[name][1]) for name in BOUNDED)
+    width = max(len(QUANTITIES[name][1]) for name in bounds.quantities)
     lines = [f"  {'value':<{width}}  {'expected':>12}  {'bound (1 sigma)':>16}  {'relative':>9}"]
     reasons = []
-    for name in BOUNDED:
+    for name in bounds.quantities:
         unit, label = QUANTITIES[name]
         q = bounds[name]
         if not q.determined:

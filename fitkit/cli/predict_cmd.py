@@ -268,8 +268,10 @@ def _u(x, unit: str) -> str:
     return format_quantity(value, unit, err)
 
 
-def _loading(chain: Chain) -> str:
-    rloop = format_quantity(chain.loop_ohm, "ohm")
+def _loading(p: Prediction) -> str:
+    chain = p.chain
+    at = None if p.extremum_hz is None else value_and_error(p.extremum_hz)[0]
+    rloop = format_quantity(chain.loop_ohm if at is None else chain.loop_ohm_at(at), "ohm")
     if chain.circuit == "tank":
         return f"the chain's {rloop} damping the tank's dynamic resistance"
     return f"R + {rloop} of the chain in the loop"
@@ -283,9 +285,8 @@ def prediction_table(p: Prediction, origin: str) -> str:
         f"  circuit  R {_u(v['R'], 'ohm')}, L {_u(v['L'], 'H')}",
         f"  chain    {p.chain.describe()}",
         f"  wanted   {format_quantity(p.wanted_hz, 'Hz')}",
-        f"  tuning   C {_u(v['C'], 'F')} ({p.c_origin}"
-        + (f", tuned to {format_quantity(p.tune_hz, 'Hz')})" if p.c_origin == "retuned" else ")"),
-        f"  loaded Q {_u(p.q_loaded, '')} ({_loading(p.chain)})",
+        f"  tuning   C {_u(v['C'], 'F')} ({p.c_origin}: {_extremum_text(p)})",
+        f"  loaded Q {_u(p.q_loaded, '')} ({_loading(p)})",
     ]
     if p.carriers:
         head = f"  {'carrier':<14}{'offset':>12}{'level':>9}   {'rejection':<27}  S/I at the output"
@@ -298,11 +299,23 @@ def prediction_table(p: Prediction, origin: str) -> str:
                 f"{r.carrier.level_db:>+7.1f}dB   {_db(r.rejection_db):<27}  {_db(r.sir_db)}"
                 + (f"  ({r.carrier.label})" if r.carrier.label else "")
             )
+    if p.notes:
+        lines += [""] + [f"  note     {note}" for note in p.notes]
     if p.band is not None:
         lines += ["", *_band_lines(p)]
     if p.limit is not None:
         lines += ["", *_limit_lines(p)]
     return "\n".join(lines)
+
+
+def _extremum_text(p: Prediction) -> str:
+    if p.extremum_hz is None:
+        near = format_quantity(p.tune_hz, "Hz")
+        return f"the chain's response has no {p.chain.extremum} near {near}"
+    at = _u(p.extremum_hz, "Hz")
+    if p.chain.passes:
+        return f"the chain's response peaks at {at}"
+    return f"the chain's null sits at {at}"
 
 
 def _band_lines(p: Prediction) -> list:
