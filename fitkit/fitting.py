@@ -244,6 +244,10 @@ def _to_result(problem, result, first: FirstPass, noise: Noise, judged: list) ->
     return fit
 
 
+#: a bootstrap interval wider than this share of the value marks it doubtful
+_POORLY_PINNED = 0.6
+
+
 def _with_intervals(problem, result, used, noise, quantities: dict) -> dict:
     """68 % bootstrap intervals on every determined value; no error below half of one."""
     names = [n for n, q in quantities.items() if q.determined]
@@ -252,9 +256,21 @@ def _with_intervals(problem, result, used, noise, quantities: dict) -> dict:
     for name, (low, high) in found.items():
         q = out[name]
         low, high = min(low, q.value), max(high, q.value)
+        doubtful = q.doubtful
+        if not doubtful and high - low > _POORLY_PINNED * abs(q.value):
+            # a spread this wide is not a normal error bar: the estimate is lopsided
+            doubtful = (
+                f"poorly pinned by this sweep: its 68% interval runs from "
+                f"{format_quantity(low, q.unit)} to {format_quantity(high, q.unit)}"
+            )
         out[name] = dataclasses.replace(
-            q, interval=(low, high), stderr=max(q.stderr, 0.5 * (high - low))
+            q, interval=(low, high), stderr=max(q.stderr, 0.5 * (high - low)), doubtful=doubtful
         )
+    for name in set(names) - set(found):
+        q = out[name]
+        if not q.doubtful and q.stderr > 0.5 * _POORLY_PINNED * abs(q.value):
+            # too few refits gave it a value at all (a loss that came out below zero)
+            out[name] = dataclasses.replace(q, doubtful="not resolved by this sweep")
     return out
 
 
