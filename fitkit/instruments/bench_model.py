@@ -52,7 +52,7 @@ class BenchModel:
     l_h: float = 220e-6
     c_f: float = 1e-9
     setup: Setup = field(default_factory=lambda: Setup("divider", "ratio", sense_ohm=47.0))
-    noise_v: float = 2e-3
+    noise_v: float = 10e-3
     drift_per_s: float = 0.0
     delay_s: float = 0.0
     tilt_db_per_decade: float = 0.0
@@ -99,3 +99,27 @@ class BenchModel:
             step = 2.0 * rng_v / _ADC_LEVELS
             out.append(np.clip(np.round(y / step) * step, -rng_v, rng_v))
         return out
+
+
+#: ready-made simulated benches: name -> (what it is, the model's settings, a span to sweep)
+SCENARIOS = {
+    "series": (
+        "hand-wound 220 uH coil in series with 1 nF, 47 ohm sense resistor",
+        {"topology": "series", "r_ohm": 10.0, "l_h": 220e-6, "c_f": 1e-9},
+        (100e3, 1e6),
+    ),
+    "tank": (
+        "100 uH coil across 2.2 nF, fed through 10 kohm, the scope across the tank",
+        {"topology": "tank", "r_ohm": 3.0, "l_h": 100e-6, "c_f": 2.2e-9, "feed_ohm": 10e3},
+        (100e3, 1e6),
+    ),
+}
+
+
+def scenario_model(name: str, **options) -> BenchModel:
+    """The simulated bench of a ready-made scenario, with imperfections as options."""
+    settings = dict(SCENARIOS[name][1])
+    feed = settings.pop("feed_ohm", None)
+    if feed is not None:
+        settings["setup"] = Setup("across", "ratio", feed_ohm=feed)
+    return BenchModel(**settings, **options)
