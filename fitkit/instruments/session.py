@@ -205,9 +205,9 @@ def _sweep(request, setup, reader, result, metadata, progress) -> None:
     def take(freqs) -> None:
         for f in freqs:
             pt = reader.read(f)
-            points.append(pt)
             for inst in (reader.generator, reader.digitiser):
-                inst.check_errors(f"the point at {f:.6g} Hz")
+                inst.check_errors(f"the point at {f:.6g} Hz")  # a point read in error is lost
+            points.append(pt)
             write_points(result.path, points, metadata)
 
     have = {round(pt.freq_hz, 6) for pt in points}
@@ -273,6 +273,7 @@ def _switch_off(manager, gen, address: str, profile: Profile) -> None:
     """Switch the generator output off; reconnect once if the connection is gone."""
     try:
         gen.send("output_off")
+        gen.wait()  # the instrument has taken the command, not only the cable
         return
     except InstrumentError:
         pass

@@ -10,8 +10,9 @@ its error queue as SCPI error -113, values out of range as -222, as a real instr
 does. pyvisa reaches it at ``TCPIP::127.0.0.1::PORT::SOCKET``.
 
 For tests of the failure paths an instrument can be told to fail after a number of
-commands: close the connection (``"drop"``), stop answering (``"silent"``) or put an
-error in its queue (``"error"``).
+commands: close the connection (``"drop"``), stop answering (``"silent"``), put an
+error in its queue (``"error"``) or overload its inputs (``"overload"``: a transient far
+above every range, so every record clips).
 """
 
 from __future__ import annotations
@@ -60,6 +61,7 @@ class _State:
     duration_s: float = 1e-3
     points: int = 1000
     records: dict = field(default_factory=dict)
+    overload: bool = False
     lock: threading.Lock = field(default_factory=threading.Lock)
 
 
@@ -81,7 +83,10 @@ class _Instrument:
         if self.fault and self.count > self.fault[1]:
             if self.fault[0] in ("drop", "silent"):
                 return self.fault[0]
-            self.errors.append('-222,"Data out of range"')
+            if self.fault[0] == "overload":
+                self.state.overload = True
+            else:
+                self.errors.append('-222,"Data out of range"')
             self.fault = None
         for pattern, name in self.table:
             m = pattern.match(line.strip())
@@ -176,6 +181,7 @@ class _Instrument:
     def init(self, suffix, query, arg):
         s = self.state
         emf = s.vpp if s.output_on else 0.0  # a matched display: EMF peak = set Vpp
+        emf *= 1e4 if s.overload else 1.0
         records = s.model.capture(
             s.freq_hz, emf, s.duration_s, s.points, (s.ranges[1], s.ranges[2])
         )

@@ -133,7 +133,8 @@ class Instrument:
         try:
             return action()
         except pyvisa.errors.VisaIOError as exc:
-            if exc.error_code == pyvisa.constants.StatusCode.error_timeout:
+            timed_out = exc.error_code == pyvisa.constants.StatusCode.error_timeout
+            if timed_out and not self._peer_closed():
                 raise InstrumentError(
                     f"the {self.role} did not answer {text!r} within "
                     f"{self.resource.timeout:g} ms",
@@ -142,7 +143,7 @@ class Instrument:
                     path=self.address,
                 ) from None
             raise InstrumentError(
-                f"lost the connection to the {self.role} at {text!r} ({exc.abbreviation})",
+                f"lost the connection to the {self.role} at {text!r}",
                 remedy="check the cable, the network and that the instrument is on",
                 path=self.address,
             ) from None
@@ -152,6 +153,23 @@ class Instrument:
                 remedy="check the cable, the network and that the instrument is on",
                 path=self.address,
             ) from None
+
+
+    def _peer_closed(self) -> bool:
+        """True when a socket connection was closed by the other end.
+
+        pyvisa-py reports a closed raw socket as a timeout; a peek that reads end of
+        stream at once tells the two apart. Any other transport: False.
+        """
+        import socket
+
+        try:
+            sock = self.resource.visalib.sessions[self.resource.session].interface
+            if not isinstance(sock, socket.socket):
+                return False
+            return sock.recv(1, socket.MSG_PEEK | socket.MSG_DONTWAIT) == b""
+        except (AttributeError, KeyError, OSError):
+            return False
 
 
 def resource_manager():

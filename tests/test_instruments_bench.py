@@ -1,0 +1,131 @@
+"""Taking sweeps from the simulated bench through pyvisa and pyvisa-py, nothing mocked.
+
+The truth is the circuit inside the simulated bench; a fit of the sweep taken through
+the whole path (SCPI over a loopback socket, sine fits, adaptive placement) must find it
+within 4 standard uncertainties. Failures (a dropped connection, a timeout, an error in
+the instrument's queue, a clipped point, Ctrl-C) must each leave the generator output
+off and the points taken in the file.
+"""
+
+from __future__ import annotations
+
+import math
+
+import pytest
+
+pytest.importorskip("pyvisa_py")
+
+from fitkit.errors import SetupError  # noqa: E402
+from fitkit.instruments.bench_model import scenario_model  # noqa: E402
+from fitkit.instruments.profile import load_profile  # noqa: E402
+from fitkit.instruments.reading import ReadSettings  # noqa: E402
+from fitkit.instruments.session import SweepRequest, take_sweep  # noqa: E402
+from fitkit.instruments.simbench import SimulatedBench  # noqa: E402
+from fitkit.instruments.sweep_file import read_points  # noqa: E402
+from fitkit.instruments.transport import InstrumentError  # noqa: E402
+from fitkit.readers import read_sweep  # noqa: E402
+
+FAST = ReadSettings(settle_periods=0, settle_min_s=0, record_points=400)
+
+
+@pytest.mark.parametrize("scenario", ["series", "tank"])
+def test_adaptive_sweep_recovers_the_simulated_circuit(tmp_path, scenario):
+    seen_on, holder = [], {}
+
+    def progress(points, fit):
+        seen_on.append(holder["bench"].output_on)
+
+    sim = scenario_model(scenario)
+    request = SweepRequest(100e3, 1e6, topology=sim.topology, target="Q", target_rel=0.005)
+    out = tmp_path / "sweep.csv"
+    with SimulatedBench(sim) as bench:
+        holder["bench"] = bench
+        taken = take_sweep(request, sim.setup, load_profile(), bench.addresses, out,
+                           settings=FAST, progress=progress)
+        assert not bench.output_on  # off at the end
+    assert all(seen_on)  # on during the sweep
+    assert taken.stopped.startswith("target reached")
+    fit = taken.fit
+    for name, truth in (("R", sim.r_ohm), ("L", sim.l_h), ("C", sim.c_f)):
+        q = fit[name]
+        assert abs(q.value - truth) < 4 * q.stderr, (name, q.value, q.stderr, truth)
+    # the file is an ordinary sweep file, identities in its metadata
+    sweep = read_sweep(out)
+    assert sweep.points == len(taken.points)
+    assert "simulated generator" in sweep.metadata["generator"]
+    assert "simulated digitiser" in sweep.metadata["digitiser"]
+
+
+def _check_failure(bench, out, exc_info, message):
+    assert not bench.output_after
+    assert exc_info.match(message)
+    points, metadata = read_points(out)
+    assert points and metadata["state"] == "incomplete"
+    assert f"the {len(points)} points taken are saved in {out}" in exc_info.value.remedy
+
+
+@pytest.mark.parametrize(
+    ("fault", "message"),
+    [
+        (("drop", 150), "lost the connection to the digitiser"),
+        (("silent", 150), "the digitiser did not answer"),
+        (("error", 150), "the digitiser reported error -222"),
+        (("overload", 150), "clipped at .* on the largest range"),
+    ],
+)
+def test_instrument_failures_stop_with_output_off_and_points_saved(tmp_path, fault, message):
+    sim = scenario_model("series")
+    out = tmp_path / "sweep.csv"
+    profile = load_profile()
+    object.__setattr__(profile.digitiser, "settings", {**profile.digitiser.settings,
+                                                      "timeout_ms": 300})
+    request = SweepRequest(100e3, 1e6, max_points=60)
+    with SimulatedBench(sim, {"digitiser": fault}) as bench:
+        with pytest.raises(InstrumentError) as info:
+            take_sweep(request, sim.setup, profile, bench.addresses, out, settings=FAST)
+        bench.output_after = bench.output_on
+    _check_failure(bench, out, info, message)
+
+
+def test_ctrl_c_switches_the_output_off_and_the_sweep_continues(tmp_path):
+    sim = scenario_model("series")
+    out = tmp_path / "sweep.csv"
+    request = SweepRequest(100e3, 1e6, target_rel=0.003, max_points=60)
+
+    def interrupt(points, fit):
+        raise KeyboardInterrupt
+
+    with SimulatedBench(sim) as bench:
+        with pytest.raises(KeyboardInterrupt):
+            take_sweep(request, sim.setup, load_profile(), bench.addresses, out,
+                       settings=FAST, progress=interrupt)
+        assert not bench.output_on
+        before, metadata = read_points(out)
+        assert len(before) == request.coarse_points and metadata["state"] == "incomplete"
+        taken = take_sweep(request, sim.setup, load_profile(), bench.addresses, out,
+                           settings=FAST, resume=True)
+        assert not bench.output_on
+    assert len(taken.points) > len(before)
+    assert read_points(out)[1]["state"] == "complete"
+
+
+def test_amplitude_above_the_ceiling_is_refused_before_connecting(tmp_path):
+    request = SweepRequest(100e3, 1e6, amplitude_vpp=8.0, ceiling_vpp=5.0)
+    addresses = {"generator": "TCPIP::127.0.0.1::9::SOCKET", "digitiser": "unused"}
+    with pytest.raises(SetupError, match="above the ceiling of 5 Vpp"):
+        take_sweep(request, scenario_model("series").setup, load_profile(), addresses,
+                   tmp_path / "s.csv")
+    assert not (tmp_path / "s.csv").exists()
+
+
+def test_scope_measurements_read_the_ratio_too(tmp_path):
+    sim = scenario_model("series")
+    with SimulatedBench(sim) as bench:
+        taken = take_sweep(
+            SweepRequest(200e3, 600e3, coarse_points=12, max_points=16),
+            sim.setup, load_profile(), bench.addresses, tmp_path / "s.csv",
+            settings=ReadSettings("scope", settle_periods=0, settle_min_s=0),
+        )
+    assert all(math.isnan(p.sigma) for p in taken.points)
+    fit = taken.fit
+    assert abs(fit["f0_hz"].value - 339.3e3) < max(4 * fit["f0_hz"].stderr, 1e3)
