@@ -19,6 +19,7 @@ from __future__ import annotations
 
 import math
 import re
+import socket
 import socketserver
 import threading
 from dataclasses import dataclass, field
@@ -247,7 +248,12 @@ _DIGITISER = _COMMON + [
 class _Handler(socketserver.StreamRequestHandler):
     def handle(self) -> None:
         instrument = self.server.instrument
+        quick = getattr(socket, "TCP_QUICKACK", None)
         for raw in self.rfile:
+            if quick is not None:
+                # acknowledge at once: a client's next small command would otherwise
+                # wait out the delayed acknowledgement (Nagle's algorithm, RFC 896)
+                self.request.setsockopt(socket.IPPROTO_TCP, quick, 1)
             line = raw.decode("ascii", errors="replace").strip()
             if not line:
                 continue
