@@ -130,17 +130,15 @@ def acquire_command(sweep_file, **opts):
     setup_path = out.parent / DEFAULT_NAME
     if not opts["resume"]:
         refuse_overwrite(out, "sweep", opts["force"])
-        refuse_overwrite(setup_path, "setup", opts["force"])
     elif not out.is_file():
         raise SetupError("there is no sweep to continue", remedy="drop --resume", path=out)
     target, target_rel = _target(opts["target"])
     vpp = 2 * 2**0.5  # volts peak-to-peak per volt RMS of a sine
-    bench, span = None, opts["span"]
+    model, span = None, opts["span"]
     if opts["simulated"]:
         model = scenario_model(opts["simulated"])
         setup, topology = model.setup, model.topology
         span = span or "{:g}:{:g}".format(*SCENARIOS[opts["simulated"]][2])
-        bench = SimulatedBench(model)
     else:
         if not (opts["generator_address"] and opts["digitiser_address"]):
             raise SetupError(
@@ -168,8 +166,8 @@ def acquire_command(sweep_file, **opts):
         settle_min_s=parse_quantity(opts["settle_min"], "s", what="settling time"),
     )
     request.check()
-    if not opts["resume"] or not setup_path.exists():
-        write_setup_file(out.parent, setup)
+    write_setup_file(out.parent, setup, force=opts["force"])
+    bench = SimulatedBench(model) if model else None
     with bench if bench else contextlib.nullcontext():
         addresses = bench.addresses if bench else {
             "generator": opts["generator_address"], "digitiser": opts["digitiser_address"]

@@ -195,6 +195,8 @@ def take_sweep(
                 _switch_off(manager, gen, addresses["generator"], profile)
     except FitkitError as exc:
         raise _with_saved(exc, result) from None
+    finally:
+        manager.close()
     return result
 
 

@@ -317,7 +317,7 @@ class SimulatedBench:
 
     def start(self) -> SimulatedBench:
         for server in self.servers.values():
-            thread = threading.Thread(target=server.serve_forever, daemon=True)
+            thread = threading.Thread(target=server.serve_forever, args=(0.05,), daemon=True)
             thread.start()
             self.threads.append(thread)
         return self

@@ -19,7 +19,7 @@ import os
 from pathlib import Path
 
 from fitkit.bench_file import DEFAULT_NAME
-from fitkit.errors import InputError
+from fitkit.errors import InputError, refuse_overwrite
 from fitkit.instruments.reading import Point
 from fitkit.setups import Setup
 
@@ -85,9 +85,22 @@ def read_points(path: str | Path) -> tuple:
     return points, metadata
 
 
-def write_setup_file(folder: str | Path, setup: Setup) -> Path:
-    """Write ``fitkit-setup.toml`` describing the bench into ``folder``."""
+def write_setup_file(folder: str | Path, setup: Setup, *, force: bool = False) -> Path:
+    """Write ``fitkit-setup.toml`` describing the bench into ``folder``.
+
+    A setup file there already is kept when it says the same, and refused (unless
+    ``force``) when it says something else.
+    """
     p = Path(folder) / DEFAULT_NAME
+    text = _setup_text(setup)
+    if p.is_file() and p.read_text(encoding="utf-8") == text:
+        return p
+    refuse_overwrite(p, "setup", force)
+    p.write_text(text, encoding="utf-8")
+    return p
+
+
+def _setup_text(setup: Setup) -> str:
     lines = [
         "# the bench the sweep beside this file was taken with (fitkit acquire)",
         "[bench]",
@@ -101,5 +114,4 @@ def write_setup_file(folder: str | Path, setup: Setup) -> Path:
     if setup.probe_f:
         lines.append(f'probe_capacitance = "{setup.probe_f:.10g}"')
     lines.append(f'ratio_reference = "{setup.reference}"')
-    p.write_text("\n".join(lines) + "\n", encoding="utf-8")
-    return p
+    return "\n".join(lines) + "\n"
