@@ -9,7 +9,9 @@ Two ways to measure, chosen by the user:
   the profile's templates; no per-point noise is known then.
 
 Settling: after each frequency change wait a number of periods and at least a minimum
-time. Ranging: a channel whose record reaches the rail of its range (clipped) goes one
+time; once the loaded Q is known, at least 7 time constants of the circuit's envelope,
+``tau = 2 QL / w0`` (Q/pi periods; Terman, Radio Engineers' Handbook, 1943, from
+memory), which settles it to 0.1 %. Ranging: a channel whose record reaches the rail of its range (clipped) goes one
 range up and the point is read again; a channel using under a third of its range goes
 down while the trace still fits in the smaller range. A point still clipped on the
 largest range is refused with a message.
@@ -31,6 +33,7 @@ _RAIL = 1.0 - 1.0 / 128  # within one step of an 8-bit converter's full scale
 _FILL_LOW = 1.0 / 3.0  # a trace under this share of its range goes a range down
 _FILL_HIGH = 0.8  # ...when it then fills at most this share of the smaller range
 _MAX_READS = 8
+_SETTLE_TIME_CONSTANTS = 7.0  # e^-7 < 0.1 %
 
 
 @dataclass(frozen=True)
@@ -100,6 +103,11 @@ class PointReader:
         self.channels = (part["input_channel"], part["output_channel"])
         self.ranges = list(part["ranges"])
         self.range_index = {c: len(self.ranges) - 1 for c in self.channels}
+        self.envelope_periods = 0.0
+
+    def settle_for(self, q_loaded: float) -> None:
+        """Wait at least 7 envelope time constants of a circuit of this loaded Q."""
+        self.envelope_periods = _SETTLE_TIME_CONSTANTS * q_loaded / math.pi
 
     def prepare(self) -> None:
         """Put both channels on the largest range (safe before the first point)."""
@@ -118,7 +126,8 @@ class PointReader:
         self.generator.send("set_frequency", frequency=float(freq_hz))
         self.generator.wait()
         s = self.settings
-        time.sleep(max(s.settle_periods / freq_hz, s.settle_min_s))
+        periods = max(s.settle_periods, self.envelope_periods)
+        time.sleep(max(periods / freq_hz, s.settle_min_s))
         for reads in range(1, _MAX_READS + 1):
             ratio, sigma, peaks = self._measure(freq_hz)
             if not self._rerange(peaks, freq_hz):

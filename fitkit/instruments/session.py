@@ -166,8 +166,11 @@ def take_sweep(
     request.check()
     profile.require_mode(settings.mode)
     points = read_points(out_path)[0] if resume else []
-    metadata = {"state": "incomplete", "profile": profile.name, "read by": settings.mode}
-    metadata["generator amplitude"] = f"{request.amplitude_vpp:g} Vpp"
+    metadata = {
+        "state": "incomplete",
+        "settings": f"{request.amplitude_vpp:.4g} Vpp, read by {settings.mode}, "
+        f"profile {profile.name}",
+    }
     manager = resource_manager()
     result = TakenSweep(Path(out_path), points, None, "")
     try:
@@ -231,6 +234,7 @@ def _sweep(request, setup, reader, result, metadata, progress) -> None:
             result.stopped = f"time limit reached ({request.time_limit_s:g} s)"
             break
         model = InformationModel.from_fit(result.fit, setup, request.target)
+        reader.settle_for(model.loaded_q())
         freqs = np.array([pt.freq_hz for pt in points])
         count = min(request.batch, request.max_points - len(points))
         chosen = model.next_frequencies(

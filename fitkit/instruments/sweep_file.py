@@ -32,7 +32,7 @@ def write_points(path: str | Path, points: list, metadata: dict) -> None:
     p = Path(path)
     rows = sorted(points, key=lambda pt: pt.freq_hz)
     with_sigma = bool(rows) and all(math.isfinite(pt.sigma) for pt in rows)
-    lines = ["# values: output channel over input channel (fitkit acquire)"]
+    lines = ["# taken by fitkit acquire (H is the output channel over the input channel)"]
     lines += [f"# {key}: {value}" for key, value in metadata.items()]
     lines.append(_HEADER + ("," + _SIGMA if with_sigma else ""))
     for pt in rows:
