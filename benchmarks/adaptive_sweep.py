@@ -41,11 +41,18 @@ SETTINGS = ReadSettings(settle_periods=0, settle_min_s=0, record_points=400)
 
 
 def adaptive(model, span, folder: Path) -> tuple:
-    request = SweepRequest(*span, topology=model.topology, target="Q", target_rel=TARGET,
-                           max_points=2000)
+    request = SweepRequest(
+        *span, topology=model.topology, target="Q", target_rel=TARGET, max_points=2000
+    )
     with SimulatedBench(model) as bench:
-        taken = take_sweep(request, model.setup, load_profile(), bench.addresses,
-                           folder / "adaptive.csv", settings=SETTINGS)
+        taken = take_sweep(
+            request,
+            model.setup,
+            load_profile(),
+            bench.addresses,
+            folder / "adaptive.csv",
+            settings=SETTINGS,
+        )
     q = taken.fit["Q"]
     return len(taken.points), q.stderr / q.value
 
@@ -54,8 +61,10 @@ def linear(model, span) -> tuple:
     profile = load_profile()
     manager = resource_manager()
     with SimulatedBench(model) as bench:
-        with connect(manager, bench.addresses["generator"], profile.generator) as gen, \
-                connect(manager, bench.addresses["digitiser"], profile.digitiser) as dig:
+        with (
+            connect(manager, bench.addresses["generator"], profile.generator) as gen,
+            connect(manager, bench.addresses["digitiser"], profile.digitiser) as dig,
+        ):
             gen.send("set_amplitude", amplitude=1.0)
             gen.send("output_on")
             try:
@@ -65,8 +74,7 @@ def linear(model, span) -> tuple:
                 while True:
                     f = np.linspace(*span, n)
                     values = np.array([reader.read(x).ratio for x in f])
-                    fit = fit_sweep(Sweep(f, values, "ratio"), model.setup,
-                                    topology=model.topology)
+                    fit = fit_sweep(Sweep(f, values, "ratio"), model.setup, topology=model.topology)
                     rel = fit["Q"].stderr / fit["Q"].value
                     if rel <= TARGET or n >= 3200:
                         return n, rel
@@ -80,16 +88,18 @@ def main() -> None:
     print(f"target: Q to {TARGET:.1%}; span 100 kHz to 1 MHz; python {sys.version.split()[0]}")
     ratios = []
     with tempfile.TemporaryDirectory() as tmp:
-        for name, (text, _, span) in SCENARIOS.items():
+        for name, (_, _, span) in SCENARIOS.items():
             for seed in SEEDS:
                 model = scenario_model(name, seed=seed)
                 n_a, rel_a = adaptive(model, span, Path(tmp))
                 n_l, rel_l = linear(scenario_model(name, seed=seed), span)
                 need = n_l * (rel_l / TARGET) ** 2
                 ratios.append(need / n_a)
-                print(f"{name:6s} seed {seed}: adaptive {n_a:3d} points ({rel_a:.3%}); "
-                      f"linear {n_l:4d} points ({rel_l:.3%}), needs ~{need:.0f}; "
-                      f"ratio {need / n_a:.1f}")
+                print(
+                    f"{name:6s} seed {seed}: adaptive {n_a:3d} points ({rel_a:.3%}); "
+                    f"linear {n_l:4d} points ({rel_l:.3%}), needs ~{need:.0f}; "
+                    f"ratio {need / n_a:.1f}"
+                )
     print(f"median ratio linear/adaptive: {statistics.median(ratios):.1f}")
 
 

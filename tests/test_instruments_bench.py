@@ -10,6 +10,7 @@ off and the points taken in the file.
 from __future__ import annotations
 
 import math
+from dataclasses import replace
 
 import pytest
 
@@ -40,8 +41,15 @@ def test_adaptive_sweep_recovers_the_simulated_circuit(tmp_path, scenario):
     out = tmp_path / "sweep.csv"
     with SimulatedBench(sim) as bench:
         holder["bench"] = bench
-        taken = take_sweep(request, sim.setup, load_profile(), bench.addresses, out,
-                           settings=FAST, progress=progress)
+        taken = take_sweep(
+            request,
+            sim.setup,
+            load_profile(),
+            bench.addresses,
+            out,
+            settings=FAST,
+            progress=progress,
+        )
         assert not bench.output_on  # off at the end
     assert all(seen_on)  # on during the sweep
     assert taken.stopped.startswith("target reached")
@@ -77,8 +85,8 @@ def test_instrument_failures_stop_with_output_off_and_points_saved(tmp_path, fau
     sim = scenario_model("series")
     out = tmp_path / "sweep.csv"
     profile = load_profile()
-    object.__setattr__(profile.digitiser, "settings", {**profile.digitiser.settings,
-                                                      "timeout_ms": 300})
+    quick = {**profile.digitiser.settings, "timeout_ms": 300}
+    profile = replace(profile, digitiser=replace(profile.digitiser, settings=quick))
     request = SweepRequest(100e3, 1e6, max_points=60)
     with SimulatedBench(sim, {"digitiser": fault}) as bench:
         with pytest.raises(InstrumentError) as info:
@@ -97,13 +105,21 @@ def test_ctrl_c_switches_the_output_off_and_the_sweep_continues(tmp_path):
 
     with SimulatedBench(sim) as bench:
         with pytest.raises(KeyboardInterrupt):
-            take_sweep(request, sim.setup, load_profile(), bench.addresses, out,
-                       settings=FAST, progress=interrupt)
+            take_sweep(
+                request,
+                sim.setup,
+                load_profile(),
+                bench.addresses,
+                out,
+                settings=FAST,
+                progress=interrupt,
+            )
         assert not bench.output_on
         before, metadata = read_points(out)
         assert len(before) == request.coarse_points and metadata["state"] == "incomplete"
-        taken = take_sweep(request, sim.setup, load_profile(), bench.addresses, out,
-                           settings=FAST, resume=True)
+        taken = take_sweep(
+            request, sim.setup, load_profile(), bench.addresses, out, settings=FAST, resume=True
+        )
         assert not bench.output_on
     assert len(taken.points) > len(before)
     assert read_points(out)[1]["state"] == "complete"
@@ -113,8 +129,9 @@ def test_amplitude_above_the_ceiling_is_refused_before_connecting(tmp_path):
     request = SweepRequest(100e3, 1e6, amplitude_vpp=8.0, ceiling_vpp=5.0)
     addresses = {"generator": "TCPIP::127.0.0.1::9::SOCKET", "digitiser": "unused"}
     with pytest.raises(SetupError, match="above the ceiling of 5 Vpp"):
-        take_sweep(request, scenario_model("series").setup, load_profile(), addresses,
-                   tmp_path / "s.csv")
+        take_sweep(
+            request, scenario_model("series").setup, load_profile(), addresses, tmp_path / "s.csv"
+        )
     assert not (tmp_path / "s.csv").exists()
 
 
@@ -123,7 +140,10 @@ def test_scope_measurements_read_the_ratio_too(tmp_path):
     with SimulatedBench(sim) as bench:
         taken = take_sweep(
             SweepRequest(200e3, 600e3, coarse_points=12, max_points=16),
-            sim.setup, load_profile(), bench.addresses, tmp_path / "s.csv",
+            sim.setup,
+            load_profile(),
+            bench.addresses,
+            tmp_path / "s.csv",
             settings=ReadSettings("scope", settle_periods=0, settle_min_s=0),
         )
     assert all(math.isnan(p.sigma) for p in taken.points)

@@ -16,8 +16,7 @@ def _invoke(*args):
 
 def test_acquire_on_the_simulated_bench_prints_the_fit_and_writes_both_files(tmp_path):
     out = tmp_path / "sweep.csv"
-    result = _invoke("acquire", out, "--simulated", "tank", "--target", "Q=1%",
-                     "--settle-min", "0")
+    result = _invoke("acquire", out, "--simulated", "tank", "--target", "Q=1%", "--settle-min", "0")
     assert result.exit_code == 0, result.output
     assert "parallel tank" in result.stdout
     assert "Q (circuit, unloaded)" in result.stdout

@@ -23,7 +23,8 @@ def _target(text: str) -> tuple:
     if not sep or name.strip() not in _TARGET_NAMES or not pct.strip().endswith("%") or rel <= 0:
         raise SetupError(
             f"cannot read the target {text!r}",
-            remedy="write NAME=PERCENT with NAME one of " + ", ".join(_TARGET_NAMES)
+            remedy="write NAME=PERCENT with NAME one of "
+            + ", ".join(_TARGET_NAMES)
             + ", e.g. Q=0.5%",
         )
     return _TARGET_NAMES[name.strip()], rel
@@ -59,44 +60,105 @@ def _progress(target: str):
 
 @main.command("acquire")
 @click.argument("sweep_file", type=click.Path(dir_okay=False))
-@click.option("--generator", "generator_address", help="VISA address of the generator, "
-              "e.g. TCPIP::192.168.1.20::5025::SOCKET.")
-@click.option("--digitiser", "digitiser_address", help="VISA address of the two-channel "
-              "digitiser (input on the first channel of the profile, output on the second).")
-@click.option("--simulated", type=click.Choice(["series", "tank"]),
-              help="Take the sweep from a simulated bench on this computer instead "
-              "(no instruments needed; see 'fitkit simbench').")
-@click.option("--profile", "profile_path", type=click.Path(dir_okay=False),
-              help="Instrument profile (TOML); default: the shipped SCPI profile.")
+@click.option(
+    "--generator",
+    "generator_address",
+    help="VISA address of the generator, e.g. TCPIP::192.168.1.20::5025::SOCKET.",
+)
+@click.option(
+    "--digitiser",
+    "digitiser_address",
+    help="VISA address of the two-channel "
+    "digitiser (input on the first channel of the profile, output on the second).",
+)
+@click.option(
+    "--simulated",
+    type=click.Choice(["series", "tank"]),
+    help="Take the sweep from a simulated bench on this computer instead "
+    "(no instruments needed; see 'fitkit simbench').",
+)
+@click.option(
+    "--profile",
+    "profile_path",
+    type=click.Path(dir_okay=False),
+    help="Instrument profile (TOML); default: the shipped SCPI profile.",
+)
 @click.option("--span", help="Frequencies of the coarse pass, START:STOP, e.g. 100k:1M.")
-@click.option("--bench", type=click.Choice(["divider", "across"]), default="divider",
-              show_default=True, help="How the circuit sits between the two channels.")
+@click.option(
+    "--bench",
+    type=click.Choice(["divider", "across"]),
+    default="divider",
+    show_default=True,
+    help="How the circuit sits between the two channels.",
+)
 @click.option("--sense-r", help="Sense resistor of a divider, ohm (e.g. 47).")
 @click.option("--feed-r", help="Resistor feeding the circuit on an across bench, ohm.")
-@click.option("--source-r", default="50", show_default=True,
-              help="Generator source resistance, ohm.")
+@click.option(
+    "--source-r", default="50", show_default=True, help="Generator source resistance, ohm."
+)
 @click.option("--probe-c", help="Probe/input capacitance across the output, e.g. 15p.")
-@click.option("--model", type=click.Choice(["series", "tank"]), default="series",
-              show_default=True, help="Circuit model fitted as points come in.")
-@click.option("--target", default="Q=0.5%", show_default=True,
-              help="Stop when this value's standard uncertainty is reached, NAME=PERCENT "
-              "(NAME: R, L, C, f0, Q, bandwidth).")
-@click.option("--max-points", default=200, show_default=True, type=click.IntRange(8, 100000),
-              help="Point budget.")
-@click.option("--time-limit", default=600.0, show_default=True, type=click.FloatRange(min=1),
-              help="Stop after this many seconds.")
-@click.option("--amplitude", default="1 Vpp", show_default=True,
-              help="Generator amplitude as set on its display.")
-@click.option("--max-amplitude", default="5 Vpp", show_default=True,
-              help="Ceiling: a larger --amplitude is refused.")
-@click.option("--read", "read_mode", type=click.Choice(["waveform", "scope"]),
-              default="waveform", show_default=True,
-              help="waveform: capture both channels and fit sines (each point gets its own "
-              "noise); scope: the digitiser's own amplitude and phase measurements.")
-@click.option("--settle-periods", default=20.0, show_default=True, type=click.FloatRange(min=0),
-              help="Periods to wait after each frequency change.")
-@click.option("--settle-min", default="2m", show_default=True,
-              help="Shortest wait after each frequency change, seconds.")
+@click.option(
+    "--model",
+    type=click.Choice(["series", "tank"]),
+    default="series",
+    show_default=True,
+    help="Circuit model fitted as points come in.",
+)
+@click.option(
+    "--target",
+    default="Q=0.5%",
+    show_default=True,
+    help="Stop when this value's standard uncertainty is reached, NAME=PERCENT "
+    "(NAME: R, L, C, f0, Q, bandwidth).",
+)
+@click.option(
+    "--max-points",
+    default=200,
+    show_default=True,
+    type=click.IntRange(8, 100000),
+    help="Point budget.",
+)
+@click.option(
+    "--time-limit",
+    default=600.0,
+    show_default=True,
+    type=click.FloatRange(min=1),
+    help="Stop after this many seconds.",
+)
+@click.option(
+    "--amplitude",
+    default="1 Vpp",
+    show_default=True,
+    help="Generator amplitude as set on its display.",
+)
+@click.option(
+    "--max-amplitude",
+    default="5 Vpp",
+    show_default=True,
+    help="Ceiling: a larger --amplitude is refused.",
+)
+@click.option(
+    "--read",
+    "read_mode",
+    type=click.Choice(["waveform", "scope"]),
+    default="waveform",
+    show_default=True,
+    help="waveform: capture both channels and fit sines (each point gets its own "
+    "noise); scope: the digitiser's own amplitude and phase measurements.",
+)
+@click.option(
+    "--settle-periods",
+    default=20.0,
+    show_default=True,
+    type=click.FloatRange(min=0),
+    help="Periods to wait after each frequency change.",
+)
+@click.option(
+    "--settle-min",
+    default="2m",
+    show_default=True,
+    help="Shortest wait after each frequency change, seconds.",
+)
 @click.option("--resume", is_flag=True, help="Continue the stopped sweep in SWEEP_FILE.")
 @click.option("--force", is_flag=True, help="Replace an existing SWEEP_FILE and setup file.")
 @reports_errors
@@ -169,18 +231,27 @@ def acquire_command(sweep_file, **opts):
     write_setup_file(out.parent, setup, force=opts["force"])
     bench = SimulatedBench(model) if model else None
     with bench if bench else contextlib.nullcontext():
-        addresses = bench.addresses if bench else {
-            "generator": opts["generator_address"], "digitiser": opts["digitiser_address"]
-        }
+        addresses = (
+            bench.addresses
+            if bench
+            else {"generator": opts["generator_address"], "digitiser": opts["digitiser_address"]}
+        )
         try:
             taken = take_sweep(
-                request, setup, load_profile(opts["profile_path"]), addresses, out,
-                settings=settings, resume=opts["resume"], progress=_progress(target),
+                request,
+                setup,
+                load_profile(opts["profile_path"]),
+                addresses,
+                out,
+                settings=settings,
+                resume=opts["resume"],
+                progress=_progress(target),
             )
         except KeyboardInterrupt:
             click.echo(
                 f"\nStopped: the generator output is off; the points taken are in {out} "
-                "(add --resume to continue).", err=True,
+                "(add --resume to continue).",
+                err=True,
             )
             sys.exit(130)
     fit, _ = fit_file(out, topology=topology)

@@ -10,19 +10,37 @@ from fitkit.cli.base import main, reports_errors
 
 
 @main.command("simbench")
-@click.option("--circuit", type=click.Choice(["series", "tank"]), default="series",
-              show_default=True, help="The circuit on the simulated bench.")
-@click.option("--noise", default="10m", show_default=True,
-              help="RMS noise per sample on each channel, volts.")
-@click.option("--drift", default=0.0, show_default=True,
-              help="Drift of C, parts per million per second.")
-@click.option("--skew", default="0", show_default=True,
-              help="Delay of the output channel behind the input channel, seconds (e.g. 20n).")
-@click.option("--tilt", default=0.0, show_default=True,
-              help="Gain error of the output channel, dB per decade from 1 MHz.")
+@click.option(
+    "--circuit",
+    type=click.Choice(["series", "tank"]),
+    default="series",
+    show_default=True,
+    help="The circuit on the simulated bench.",
+)
+@click.option(
+    "--noise", default="10m", show_default=True, help="RMS noise per sample on each channel, volts."
+)
+@click.option(
+    "--drift", default=0.0, show_default=True, help="Drift of C, parts per million per second."
+)
+@click.option(
+    "--skew",
+    default="0",
+    show_default=True,
+    help="Delay of the output channel behind the input channel, seconds (e.g. 20n).",
+)
+@click.option(
+    "--tilt",
+    default=0.0,
+    show_default=True,
+    help="Gain error of the output channel, dB per decade from 1 MHz.",
+)
 @click.option("--seed", default=1, show_default=True, help="Seed of the noise.")
-@click.option("--seconds", type=click.FloatRange(min=0), help="Stop after this many seconds "
-              "[default: run until Ctrl-C].")
+@click.option(
+    "--seconds",
+    type=click.FloatRange(min=0),
+    help="Stop after this many seconds [default: run until Ctrl-C].",
+)
 @reports_errors
 def simbench_command(circuit, noise, drift, skew, tilt, seed, seconds):
     """Run a simulated generator and two-channel digitiser, to try 'fitkit acquire'.
@@ -45,7 +63,8 @@ def simbench_command(circuit, noise, drift, skew, tilt, seed, seconds):
     )
     text, _, (start, stop) = SCENARIOS[circuit]
     bench_opts = (
-        f"--sense-r {model.setup.sense_ohm:g}" if model.setup.bench == "divider"
+        f"--sense-r {model.setup.sense_ohm:g}"
+        if model.setup.bench == "divider"
         else f"--bench across --feed-r {model.setup.feed_ohm:g}"
     )
     with SimulatedBench(model) as bench:

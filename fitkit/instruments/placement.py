@@ -64,7 +64,11 @@ class InformationModel:
         if fit.topology == "tank":
             return cls("tank", setup, f0, fit["Q"].value, fit["R_dynamic"].value, target)
         return cls(
-            "series", setup, f0, fit["Q_loaded"].value, fit["R"].value + setup.external_ohm,
+            "series",
+            setup,
+            f0,
+            fit["Q_loaded"].value,
+            fit["R"].value + setup.external_ohm,
             target,
         )
 
@@ -119,7 +123,12 @@ class InformationModel:
         return float(self._values(self.theta)["Q_loaded"])
 
     def next_frequencies(
-        self, taken_hz: np.ndarray, sigma: np.ndarray, count: int, *, shift: float = 0.0,
+        self,
+        taken_hz: np.ndarray,
+        sigma: np.ndarray,
+        count: int,
+        *,
+        shift: float = 0.0,
         span_hz: tuple = (0.0, math.inf),
     ) -> list:
         """Pick ``count`` new frequencies, each lowering the bound on the target most.

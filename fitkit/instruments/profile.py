@@ -52,8 +52,15 @@ _DIGITISER_COMMANDS = {
 }
 #: commands a profile must give; the rest are used when present
 _REQUIRED = {
-    "generator": ("identify", "wait", "error", "set_frequency", "set_amplitude", "output_on",
-                  "output_off"),
+    "generator": (
+        "identify",
+        "wait",
+        "error",
+        "set_frequency",
+        "set_amplitude",
+        "output_on",
+        "output_off",
+    ),
     "digitiser": ("identify", "wait", "error", "set_range"),
 }
 #: what each way of reading a point needs from the digitiser
@@ -62,10 +69,20 @@ MODE_COMMANDS = {
     "scope": ("measure_amplitude", "measure_phase"),
 }
 _SETTINGS = {
-    "generator": {"timeout_ms": int, "read_termination": str, "write_termination": str,
-                  "source": int},
-    "digitiser": {"timeout_ms": int, "read_termination": str, "write_termination": str,
-                  "input_channel": int, "output_channel": int, "ranges": list},
+    "generator": {
+        "timeout_ms": int,
+        "read_termination": str,
+        "write_termination": str,
+        "source": int,
+    },
+    "digitiser": {
+        "timeout_ms": int,
+        "read_termination": str,
+        "write_termination": str,
+        "input_channel": int,
+        "output_channel": int,
+        "ranges": list,
+    },
 }
 _COMMANDS = {"generator": _GENERATOR_COMMANDS, "digitiser": _DIGITISER_COMMANDS}
 _DEFAULTS = {
@@ -113,7 +130,7 @@ class InstrumentProfile:
         if name not in self.commands:
             raise InputError(
                 f"the {self.role} profile has no '{name}' command",
-                remedy=f"add {name} = \"...\" to the [{self.role}] table",
+                remedy=f'add {name} = "..." to the [{self.role}] table',
                 path=self.source,
             )
         filled = {**{k: self.settings.get(k) for k in ("source",)}, **values}
@@ -135,8 +152,7 @@ class Profile:
         missing = [c for c in MODE_COMMANDS[mode] if not self.digitiser.has(c)]
         if missing:
             raise InputError(
-                f"reading points by '{mode}' needs the digitiser command(s) "
-                + ", ".join(missing),
+                f"reading points by '{mode}' needs the digitiser command(s) " + ", ".join(missing),
                 remedy="add them to the [digitiser] table, or choose the other --read mode",
                 path=self.source,
             )
@@ -172,9 +188,7 @@ def load_profile(path: str | Path | None = None) -> Profile:
 
 def _check_part(role: str, table, path: Path) -> InstrumentProfile:
     if not isinstance(table, dict):
-        raise InputError(
-            f"the profile has no [{role}] table", remedy=_LAYOUT, path=path
-        )
+        raise InputError(f"the profile has no [{role}] table", remedy=_LAYOUT, path=path)
     commands, settings = {}, {}
     allowed = _COMMANDS[role]
     for key, value in table.items():
@@ -204,8 +218,12 @@ def _check_setting(role: str, key: str, value, path: Path):
     kind = _SETTINGS[role][key]
     ok = isinstance(value, kind) and not isinstance(value, bool)
     if key == "ranges":
-        ok = ok and bool(value) and all(
-            isinstance(v, (int, float)) and not isinstance(v, bool) and v > 0 for v in value
+        ok = (
+            ok
+            and bool(value)
+            and all(
+                isinstance(v, (int, float)) and not isinstance(v, bool) and v > 0 for v in value
+            )
         )
         ok = ok and list(value) == sorted(value)
     elif kind is int:
@@ -214,9 +232,10 @@ def _check_setting(role: str, key: str, value, path: Path):
         want = {
             "ranges": "a list of full-scale volts, smallest first, e.g. [0.1, 1.0, 10.0]",
             "timeout_ms": "a whole number of milliseconds above 0",
-        }.get(key, "a whole number above 0" if kind is int else "a text, e.g. \"\\n\"")
+        }.get(key, "a whole number above 0" if kind is int else 'a text, e.g. "\\n"')
         raise InputError(
-            f"[{role}] {key} = {value!r} is not {want}", remedy=f"write {key} as {want}",
+            f"[{role}] {key} = {value!r} is not {want}",
+            remedy=f"write {key} as {want}",
             path=path,
         )
     return [float(v) for v in value] if key == "ranges" else value
@@ -225,9 +244,7 @@ def _check_setting(role: str, key: str, value, path: Path):
 def _check_template(role: str, key: str, value, spec: tuple, path: Path) -> str:
     need, may = spec
     if not isinstance(value, str) or not value.strip():
-        raise InputError(
-            f"[{role}] {key} must be a command text", remedy=_LAYOUT, path=path
-        )
+        raise InputError(f"[{role}] {key} must be a command text", remedy=_LAYOUT, path=path)
     try:
         found = {name for _, name, _, _ in string.Formatter().parse(value) if name is not None}
     except ValueError as exc:
@@ -241,13 +258,13 @@ def _check_template(role: str, key: str, value, spec: tuple, path: Path) -> str:
     if missing or stray:
         said = []
         if missing:
-            said.append("lacks " + ", ".join("{%s}" % n for n in missing))
+            said.append("lacks " + ", ".join(f"{{{n}}}" for n in missing))
         if stray:
-            said.append("holds unknown " + ", ".join("{%s}" % n for n in stray))
+            said.append("holds unknown " + ", ".join(f"{{{n}}}" for n in stray))
         allowed = [*need, *may]
         raise InputError(
             f"[{role}] {key} = {value!r} " + " and ".join(said),
-            remedy="its placeholders: " + (", ".join("{%s}" % n for n in allowed) or "none"),
+            remedy="its placeholders: " + (", ".join(f"{{{n}}}" for n in allowed) or "none"),
             path=path,
         )
     return value

@@ -11,8 +11,10 @@ Two ways to measure, chosen by the user:
 Settling: after each frequency change wait a number of periods and at least a minimum
 time; once the loaded Q is known, at least 7 time constants of the circuit's envelope,
 ``tau = 2 QL / w0`` (Q/pi periods; Terman, Radio Engineers' Handbook, 1943, from
-memory), which settles it to 0.1 %. Ranging: a channel whose record reaches the rail of its range (clipped) goes one
-range up and the point is read again; a channel using under a third of its range goes
+memory), which settles it to 0.1 %.
+
+Ranging: a channel whose record reaches the rail of its range (clipped) goes one range
+up and the point is read again; a channel using under a third of its range goes
 down while the trace still fits in the smaller range. A point still clipped on the
 largest range is refused with a message.
 """
@@ -156,8 +158,7 @@ class PointReader:
         records = [np.asarray(d.ask_numbers("fetch", channel=c)) for c in self.channels]
         if min(r.size for r in records) < 16:
             raise InstrumentError(
-                f"the digitiser sent records of {records[0].size} and {records[1].size} "
-                "samples",
+                f"the digitiser sent records of {records[0].size} and {records[1].size} samples",
                 remedy="check the set_points and fetch commands of the profile",
                 path=d.address,
             )
@@ -202,4 +203,6 @@ class PointReader:
         return changed
 
     def _set_range(self, channel: int) -> None:
-        self.digitiser.send("set_range", channel=channel, range=self.ranges[self.range_index[channel]])
+        self.digitiser.send(
+            "set_range", channel=channel, range=self.ranges[self.range_index[channel]]
+        )

@@ -127,7 +127,7 @@ def take_sweep(
     addresses: dict,
     out_path: str | Path,
     *,
-    settings: ReadSettings = ReadSettings(),
+    settings: ReadSettings | None = None,
     resume: bool = False,
     progress=None,
 ) -> TakenSweep:
@@ -145,8 +145,8 @@ def take_sweep(
         VISA addresses, ``{"generator": ..., "digitiser": ...}``.
     out_path : str or Path
         The sweep file, rewritten after every point.
-    settings : ReadSettings
-        How each point is read.
+    settings : ReadSettings, optional
+        How each point is read (default: sine fits of captured records).
     resume : bool
         Continue the sweep in ``out_path`` (its points count toward the budget).
     progress : callable, optional
@@ -164,6 +164,7 @@ def take_sweep(
         An instrument failed; the points so far are saved and the output is off.
     """
     request.check()
+    settings = settings or ReadSettings()
     profile.require_mode(settings.mode)
     points = read_points(out_path)[0] if resume else []
     metadata = {
@@ -174,9 +175,10 @@ def take_sweep(
     manager = resource_manager()
     result = TakenSweep(Path(out_path), points, None, "")
     try:
-        with connect(manager, addresses["generator"], profile.generator) as gen, connect(
-            manager, addresses["digitiser"], profile.digitiser
-        ) as dig:
+        with (
+            connect(manager, addresses["generator"], profile.generator) as gen,
+            connect(manager, addresses["digitiser"], profile.digitiser) as dig,
+        ):
             for inst in (gen, dig):
                 metadata[inst.role] = inst.identify()
                 if inst.profile.has("reset"):
@@ -238,7 +240,10 @@ def _sweep(request, setup, reader, result, metadata, progress) -> None:
         freqs = np.array([pt.freq_hz for pt in points])
         count = min(request.batch, request.max_points - len(points))
         chosen = model.next_frequencies(
-            freqs, _sigmas(points, result.fit), count, shift=round_no * _GOLDEN,
+            freqs,
+            _sigmas(points, result.fit),
+            count,
+            shift=round_no * _GOLDEN,
             span_hz=(request.start_hz, request.stop_hz),
         )
         if not chosen:

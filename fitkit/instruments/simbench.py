@@ -44,7 +44,7 @@ def _pattern(spec: str) -> re.Pattern:
         suffix = word.endswith("#")
         word = word.rstrip("#")
         short = "".join(c for c in word if c.isupper() or not c.isalpha())
-        rest = word[len(short):].upper()
+        rest = word[len(short) :].upper()
         part = re.escape(short) + (f"(?:{re.escape(rest)})?" if rest else "")
         parts.append(part + (r"(\d*)" if suffix else ""))
     return re.compile(":?" + ":".join(parts) + r"(\?)?(?:\s+(.*))?$", re.IGNORECASE)

@@ -136,8 +136,7 @@ class Instrument:
             timed_out = exc.error_code == pyvisa.constants.StatusCode.error_timeout
             if timed_out and not self._peer_closed():
                 raise InstrumentError(
-                    f"the {self.role} did not answer {text!r} within "
-                    f"{self.resource.timeout:g} ms",
+                    f"the {self.role} did not answer {text!r} within {self.resource.timeout:g} ms",
                     remedy="check the cable and the address; raise timeout_ms in the profile "
                     "if the instrument is slow",
                     path=self.address,
@@ -153,7 +152,6 @@ class Instrument:
                 remedy="check the cable, the network and that the instrument is on",
                 path=self.address,
             ) from None
-
 
     def _peer_closed(self) -> bool:
         """True when a socket connection was closed by the other end.
