@@ -29,6 +29,13 @@ from fitkit.readers import read_sweep  # noqa: E402
 FAST = ReadSettings(settle_periods=0, settle_min_s=0, record_points=400)
 
 
+def _take(bench, sim, request, out, **options):
+    """A sweep of the simulated circuit with the shipped profile, read fast."""
+    options.setdefault("settings", FAST)
+    profile = options.pop("profile", None) or load_profile()
+    return take_sweep(request, sim.setup, profile, bench.addresses, out, **options)
+
+
 @pytest.mark.parametrize("scenario", ["series", "tank"])
 def test_adaptive_sweep_recovers_the_simulated_circuit(tmp_path, scenario):
     seen_on, holder = [], {}
@@ -41,15 +48,7 @@ def test_adaptive_sweep_recovers_the_simulated_circuit(tmp_path, scenario):
     out = tmp_path / "sweep.csv"
     with SimulatedBench(sim) as bench:
         holder["bench"] = bench
-        taken = take_sweep(
-            request,
-            sim.setup,
-            load_profile(),
-            bench.addresses,
-            out,
-            settings=FAST,
-            progress=progress,
-        )
+        taken = _take(bench, sim, request, out, progress=progress)
         assert not bench.output_on  # off at the end
     assert all(seen_on)  # on during the sweep
     assert taken.stopped.startswith("target reached")
@@ -90,7 +89,7 @@ def test_instrument_failures_stop_with_output_off_and_points_saved(tmp_path, fau
     request = SweepRequest(100e3, 1e6, max_points=60)
     with SimulatedBench(sim, {"digitiser": fault}) as bench:
         with pytest.raises(InstrumentError) as info:
-            take_sweep(request, sim.setup, profile, bench.addresses, out, settings=FAST)
+            _take(bench, sim, request, out, profile=profile)
         bench.output_after = bench.output_on
     _check_failure(bench, out, info, message)
 
@@ -105,21 +104,11 @@ def test_ctrl_c_switches_the_output_off_and_the_sweep_continues(tmp_path):
 
     with SimulatedBench(sim) as bench:
         with pytest.raises(KeyboardInterrupt):
-            take_sweep(
-                request,
-                sim.setup,
-                load_profile(),
-                bench.addresses,
-                out,
-                settings=FAST,
-                progress=interrupt,
-            )
+            _take(bench, sim, request, out, progress=interrupt)
         assert not bench.output_on
         before, metadata = read_points(out)
         assert len(before) == request.coarse_points and metadata["state"] == "incomplete"
-        taken = take_sweep(
-            request, sim.setup, load_profile(), bench.addresses, out, settings=FAST, resume=True
-        )
+        taken = _take(bench, sim, request, out, resume=True)
         assert not bench.output_on
     assert len(taken.points) > len(before)
     assert read_points(out)[1]["state"] == "complete"

@@ -72,39 +72,33 @@ class InformationModel:
             target,
         )
 
-    def _values(self, theta: np.ndarray) -> dict:
+    def _components(self, theta: np.ndarray) -> tuple:
         f0, q, scale = np.exp(theta)
-        comps = self.topology.components(self.setup, f0, q, scale, {})
+        return f0, q, self.topology.components(self.setup, f0, q, scale, {})
+
+    def _values(self, theta: np.ndarray) -> dict:
+        f0, q, comps = self._components(theta)
         return {**comps, **self.topology.derived(self.setup, f0, q, comps)}
 
     def response(self, freq_hz: np.ndarray, theta: np.ndarray | None = None) -> np.ndarray:
         """What the bench reads at these frequencies."""
         f = np.asarray(freq_hz, dtype=np.float64)
-        t = self.theta if theta is None else theta
-        f0, q, scale = np.exp(t)
-        comps = self.topology.components(self.setup, f0, q, scale, {})
+        comps = self._components(self.theta if theta is None else theta)[2]
         return self.setup.response(self.topology.impedance(f, comps, 1.0), f)
+
+    def _central(self, func) -> list:
+        """Central differences of ``func(theta)`` along each parameter."""
+        out = []
+        for step in np.eye(3) * _STEP:
+            out.append((func(self.theta + step) - func(self.theta - step)) / (2 * _STEP))
+        return out
 
     def jacobian(self, freq_hz: np.ndarray) -> np.ndarray:
         """d(reading)/d theta, complex, one row per frequency."""
-        cols = []
-        for k in range(3):
-            step = np.zeros(3)
-            step[k] = _STEP
-            hi = self.response(freq_hz, self.theta + step)
-            lo = self.response(freq_hz, self.theta - step)
-            cols.append((hi - lo) / (2 * _STEP))
-        return np.column_stack(cols)
+        return np.column_stack(self._central(lambda t: self.response(freq_hz, t)))
 
     def _target_gradient(self) -> np.ndarray:
-        grad = np.zeros(3)
-        for k in range(3):
-            step = np.zeros(3)
-            step[k] = _STEP
-            hi = self._values(self.theta + step)[self.target]
-            lo = self._values(self.theta - step)[self.target]
-            grad[k] = (math.log(hi) - math.log(lo)) / (2 * _STEP)
-        return grad
+        return np.array(self._central(lambda t: math.log(self._values(t)[self.target])))
 
     def information(self, freq_hz: np.ndarray, sigma: np.ndarray) -> np.ndarray:
         """The Fisher matrix of readings at these frequencies with these sigmas."""
