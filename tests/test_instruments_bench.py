@@ -94,6 +94,31 @@ def test_instrument_failures_stop_with_output_off_and_points_saved(tmp_path, fau
     _check_failure(bench, out, info, message)
 
 
+def test_a_dropped_generator_is_reconnected_to_switch_the_output_off(tmp_path):
+    sim = scenario_model("series")
+    out = tmp_path / "sweep.csv"
+    with SimulatedBench(sim, {"generator": ("drop", 40)}) as bench:
+        with pytest.raises(InstrumentError, match="lost the connection to the generator"):
+            _take(bench, sim, SweepRequest(100e3, 1e6, max_points=60), out)
+        assert not bench.output_on
+
+
+def test_a_hung_generator_is_reported_to_be_switched_off_by_hand(tmp_path):
+    sim = scenario_model("series")
+    profile = load_profile()
+    quick = {**profile.generator.settings, "timeout_ms": 300}
+    profile = replace(profile, generator=replace(profile.generator, settings=quick))
+    with SimulatedBench(sim, {"generator": ("silent", 40)}) as bench:
+        with pytest.raises(
+            InstrumentError, match="could not switch the generator output off"
+        ) as info:
+            _take(bench, sim, SweepRequest(100e3, 1e6), tmp_path / "s.csv", profile=profile)
+        assert bench.output_on  # the simulated generator hung with its output on
+    assert "the sweep had stopped: the generator did not answer" in info.value.message
+    assert "OFF BY HAND" in info.value.remedy
+    assert not (tmp_path / "s.csv.part").exists()
+
+
 def test_ctrl_c_switches_the_output_off_and_the_sweep_continues(tmp_path):
     sim = scenario_model("series")
     out = tmp_path / "sweep.csv"

@@ -21,6 +21,7 @@ can be continued from its file.
 from __future__ import annotations
 
 import math
+import sys
 import time
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -282,6 +283,7 @@ def _sigmas(points, fit: CircuitFit) -> np.ndarray:
 
 def _switch_off(manager, gen, address: str, profile: Profile) -> None:
     """Switch the generator output off; reconnect once if the connection is gone."""
+    stopped = sys.exc_info()[1]  # called from a finally: the error that stopped the sweep
     try:
         gen.send("output_off")
         gen.wait()  # the instrument has taken the command, not only the cable
@@ -293,8 +295,10 @@ def _switch_off(manager, gen, address: str, profile: Profile) -> None:
             again.send("output_off")
             again.wait()
     except InstrumentError:
+        why = getattr(stopped, "message", type(stopped).__name__)
+        why = f" (the sweep had stopped: {why})" if stopped else ""
         raise InstrumentError(
-            "could not switch the generator output off",
+            "could not switch the generator output off" + why,
             remedy="SWITCH THE GENERATOR OUTPUT OFF BY HAND, then check the connection",
             path=address,
         ) from None

@@ -10,7 +10,8 @@ its error queue as SCPI error -113, values out of range as -222, as a real instr
 does. pyvisa reaches it at ``TCPIP::127.0.0.1::PORT::SOCKET``.
 
 For tests of the failure paths an instrument can be told to fail after a number of
-commands: close the connection (``"drop"``), stop answering (``"silent"``), put an
+commands: close the connection once (``"drop"``), stop answering for good
+(``"silent"``), put an
 error in its queue (``"error"``) or overload its inputs (``"overload"``: a transient far
 above every range, so every record clips).
 """
@@ -82,8 +83,11 @@ class _Instrument:
         """The reply to one command line (None for no reply), or a fault's action."""
         self.count += 1
         if self.fault and self.count > self.fault[1]:
-            if self.fault[0] in ("drop", "silent"):
-                return self.fault[0]
+            if self.fault[0] == "drop":  # once: a connection made again works
+                self.fault = None
+                return "drop"
+            if self.fault[0] == "silent":  # for good: the instrument has hung
+                return "silent"
             if self.fault[0] == "overload":
                 self.state.overload = True
             else:
