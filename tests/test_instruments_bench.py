@@ -149,17 +149,38 @@ def test_amplitude_above_the_ceiling_is_refused_before_connecting(tmp_path):
     assert not (tmp_path / "s.csv").exists()
 
 
-def test_scope_measurements_read_the_ratio_too(tmp_path):
+SHORT_PROFILE = """
+name = "short forms, scope measurements"
+[generator]
+identify = "*IDN?"
+wait = "*OPC?"
+error = "SYST:ERR?"
+set_frequency = "FREQ {frequency}"
+set_amplitude = "VOLT {amplitude}"
+output_on = "OUTP ON"
+output_off = "OUTP OFF"
+[digitiser]
+identify = "*IDN?"
+wait = "*OPC?"
+error = "SYST:ERR?"
+set_range = "SENS{channel}:VOLT:RANG {range}"
+measure_amplitude = "MEAS{channel}:VOLT:AC?"
+measure_phase = "MEAS{channel}:PHAS? {reference}"
+"""
+
+
+def test_a_user_profile_with_scope_measurements_reads_the_ratio(tmp_path):
+    # SCPI short forms and default nodes (FREQ for SOURce1:FREQuency), SCPI-1999 vol. 1
+    path = tmp_path / "short.toml"
+    path.write_text(SHORT_PROFILE, encoding="utf-8")
     sim = scenario_model("series")
+    scope = ReadSettings("scope", settle_periods=0, settle_min_s=0)
+    request = SweepRequest(200e3, 600e3, coarse_points=12, max_points=24)
     with SimulatedBench(sim) as bench:
-        taken = take_sweep(
-            SweepRequest(200e3, 600e3, coarse_points=12, max_points=16),
-            sim.setup,
-            load_profile(),
-            bench.addresses,
-            tmp_path / "s.csv",
-            settings=ReadSettings("scope", settle_periods=0, settle_min_s=0),
+        taken = _take(
+            bench, sim, request, tmp_path / "s.csv", settings=scope, profile=load_profile(path)
         )
     assert all(math.isnan(p.sigma) for p in taken.points)
-    fit = taken.fit
-    assert abs(fit["f0_hz"].value - 339.3e3) < max(4 * fit["f0_hz"].stderr, 1e3)
+    f0 = taken.fit["f0_hz"]
+    truth = 1 / (2 * math.pi * math.sqrt(sim.l_h * sim.c_f))
+    assert abs(f0.value - truth) < 4 * f0.stderr

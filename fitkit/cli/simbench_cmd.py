@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import sys
 import time
 
 import click
@@ -78,6 +79,7 @@ def simbench_command(circuit, noise, drift, skew, tilt, seed, seconds):
             f"{bench_opts} --model {model.topology}"
         )
         click.echo("(Ctrl-C stops the bench)", err=True)
+        sys.stdout.flush()  # the addresses are wanted now, even through a pipe
         try:
             time.sleep(seconds) if seconds is not None else _wait_forever()
         except KeyboardInterrupt:

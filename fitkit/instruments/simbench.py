@@ -32,6 +32,8 @@ from fitkit.instruments.bench_model import BenchModel
 LOOPBACK = "127.0.0.1"
 _MAX_POINTS = 200_000
 _MAX_VPP = 20.0
+_MEASURE_PERIODS = 10
+_MEASURE_POINTS = 1000
 _IDENTITY = {
     "generator": "fitkit,simulated generator,0,1",
     "digitiser": "fitkit,simulated digitiser,0,1",
@@ -39,16 +41,27 @@ _IDENTITY = {
 
 
 def _pattern(spec: str) -> re.Pattern:
-    """``"SOURce#:FREQuency"`` -> a regex for the long or short form, optional suffix."""
-    parts = []
-    for word in spec.split(":"):
+    """``"[SOURce#]:FREQuency"`` -> a regex for the long or short form.
+
+    ``#`` marks an optional numeric suffix, brackets a node that may be left out (SCPI's
+    default nodes, e.g. ``FREQ`` for ``SOURce1:FREQuency``).
+    """
+    words = spec.split(":")
+    pieces = []
+    for i, word in enumerate(words):
+        optional = word.startswith("[")
+        word = word.strip("[]")
         suffix = word.endswith("#")
         word = word.rstrip("#")
         short = "".join(c for c in word if c.isupper() or not c.isalpha())
         rest = word[len(short) :].upper()
         part = re.escape(short) + (f"(?:{re.escape(rest)})?" if rest else "")
-        parts.append(part + (r"(\d*)" if suffix else ""))
-    return re.compile(":?" + ":".join(parts) + r"(\?)?(?:\s+(.*))?$", re.IGNORECASE)
+        part += r"(\d*)" if suffix else ""
+        if optional:
+            pieces.append(f"(?:{part}:)?")
+        else:
+            pieces.append(part + (":" if i < len(words) - 1 else ""))
+    return re.compile(":?" + "".join(pieces) + r"(\?)?(?:\s+(.*))?$", re.IGNORECASE)
 
 
 @dataclass
@@ -185,12 +198,14 @@ class _Instrument:
 
     def init(self, suffix, query, arg):
         s = self.state
+        s.records = self._capture(s.duration_s, s.points)
+
+    def _capture(self, duration_s: float, points: int) -> dict:
+        s = self.state
         emf = s.vpp if s.output_on else 0.0  # a matched display: EMF peak = set Vpp
         emf *= 1e4 if s.overload else 1.0
-        records = s.model.capture(
-            s.freq_hz, emf, s.duration_s, s.points, (s.ranges[1], s.ranges[2])
-        )
-        s.records = {1: records[0], 2: records[1]}
+        records = s.model.capture(s.freq_hz, emf, duration_s, points, (s.ranges[1], s.ranges[2]))
+        return {1: records[0], 2: records[1]}
 
     def trace(self, suffix, query, arg):
         m = re.fullmatch(r"(?:TRACE)?(\d)", arg.upper())
@@ -199,28 +214,24 @@ class _Instrument:
         return ",".join(f"{v:.6g}" for v in self.state.records[int(m.group(1))])
 
     def meas_ac(self, suffix, query, arg):
-        y = self._measured(int(suffix or 1))
+        y = self._measured()[int(suffix or 1)]
         return f"{float(np.sqrt(np.mean((y - y.mean()) ** 2))):.6g}"
 
     def meas_phase(self, suffix, query, arg):
         channel, reference = int(suffix or 2), int(arg or 1)
-        if reference not in self.state.ranges:
-            raise ValueError(reference)
-        self._measured(channel)
-        a, b = (self._correlate(self.state.records[c]) for c in (channel, reference))
+        records = self._measured()
+        if channel not in records or reference not in records:
+            raise ValueError((channel, reference))
+        a, b = (self._correlate(records[c]) for c in (channel, reference))
         return f"{math.degrees(float(np.angle(a / b))):.6g}"
 
-    def _measured(self, channel: int) -> np.ndarray:
-        # a scope measures continuously: each measurement sees a fresh record
-        if channel not in self.state.ranges:
-            raise ValueError(channel)
-        self.init(None, False, "")
-        return self.state.records[channel]
+    def _measured(self) -> dict:
+        # a scope measures continuously, on a timebase of its own showing a few periods
+        return self._capture(_MEASURE_PERIODS / self.state.freq_hz, _MEASURE_POINTS)
 
     def _correlate(self, y: np.ndarray) -> complex:
-        s = self.state
-        t = np.arange(y.size) * (s.duration_s / s.points)
-        return complex(np.sum(y * np.exp(-2j * math.pi * s.freq_hz * t)))
+        t = np.arange(y.size) * (_MEASURE_PERIODS / self.state.freq_hz / y.size)
+        return complex(np.sum(y * np.exp(-2j * math.pi * self.state.freq_hz * t)))
 
 
 _COMMON = [
@@ -232,16 +243,16 @@ _COMMON = [
     ("SYSTem:ERRor", "err"),
 ]
 _GENERATOR = _COMMON + [
-    ("SOURce#:FREQuency", "freq"),
-    ("SOURce#:VOLTage:UNIT", "unit"),
-    ("SOURce#:VOLTage", "volt"),
+    ("[SOURce#]:FREQuency", "freq"),
+    ("[SOURce#]:VOLTage:UNIT", "unit"),
+    ("[SOURce#]:VOLTage", "volt"),
     ("OUTPut#:STATe", "outp"),
     ("OUTPut#", "outp"),
 ]
 _DIGITISER = _COMMON + [
-    ("SENSe#:VOLTage:RANGe", "range_"),
-    ("SENSe:SWEep:TIME", "time_"),
-    ("SENSe:SWEep:POINts", "points"),
+    ("[SENSe#]:VOLTage:RANGe", "range_"),
+    ("[SENSe]:SWEep:TIME", "time_"),
+    ("[SENSe]:SWEep:POINts", "points"),
     ("INITiate", "init"),
     ("TRACe:DATA", "trace"),
     ("MEASure#:VOLTage:AC", "meas_ac"),

@@ -146,6 +146,13 @@ class Instrument:
                 remedy="check the cable, the network and that the instrument is on",
                 path=self.address,
             ) from None
+        except ConnectionRefusedError:
+            raise InstrumentError(
+                f"nothing answers at this address (connection refused at {text!r})",
+                remedy="check the address and port, and that the instrument is on and its "
+                "remote interface enabled",
+                path=self.address,
+            ) from None
         except (OSError, EOFError) as exc:
             raise InstrumentError(
                 f"lost the connection to the {self.role} at {text!r} ({exc})",
