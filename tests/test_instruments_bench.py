@@ -139,6 +139,16 @@ def test_ctrl_c_switches_the_output_off_and_the_sweep_continues(tmp_path):
     assert read_points(out)[1]["state"] == "complete"
 
 
+def test_the_point_budget_stops_a_sweep_that_cannot_reach_its_target(tmp_path):
+    sim = scenario_model("series")
+    request = SweepRequest(100e3, 1e6, target_rel=1e-6, max_points=30)
+    with SimulatedBench(sim) as bench:
+        taken = _take(bench, sim, request, tmp_path / "s.csv")
+        assert not bench.output_on
+    assert taken.stopped == "point budget reached (30 points)"
+    assert len(read_points(tmp_path / "s.csv")[0]) == 30
+
+
 def test_amplitude_above_the_ceiling_is_refused_before_connecting(tmp_path):
     request = SweepRequest(100e3, 1e6, amplitude_vpp=8.0, ceiling_vpp=5.0)
     addresses = {"generator": "TCPIP::127.0.0.1::9::SOCKET", "digitiser": "unused"}
