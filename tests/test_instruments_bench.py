@@ -136,6 +136,8 @@ def test_ctrl_c_switches_the_output_off_and_the_sweep_continues(tmp_path):
         taken = _take(bench, sim, request, out, resume=True)
         assert not bench.output_on
     assert len(taken.points) > len(before)
+    freqs = [p.freq_hz for p in taken.points]
+    assert len(set(freqs)) == len(freqs)  # the coarse pass was not taken again
     assert read_points(out)[1]["state"] == "complete"
 
 

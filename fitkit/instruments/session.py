@@ -218,15 +218,15 @@ def _sweep(request, setup, reader, result, metadata, progress) -> None:
             points.append(pt)
             write_points(result.path, points, metadata)
 
-    have = {round(pt.freq_hz, 6) for pt in points}
+    have = np.array([pt.freq_hz for pt in points])
     coarse = np.geomspace(request.start_hz, request.stop_hz, request.coarse_points)
-    take([f for f in coarse if round(float(f), 6) not in have])
+    take([float(f) for f in coarse if not np.any(np.abs(have / f - 1.0) < 1e-9)])
     placed = 0
     for round_no in range(request.max_points):
         result.fit = _fit(points, setup, request.topology, result.path)
         if progress is not None:
             progress(len(points), result.fit)
-        rel = result.fit[request.target].stderr / abs(result.fit[request.target].value)
+        rel = _relative(result.fit, request.target)
         if placed >= _MIN_EXTRA and rel <= request.target_rel:
             result.stopped = f"target reached ({rel:.2%} <= {request.target_rel:.2%})"
             break
@@ -273,6 +273,18 @@ def _fit(points, setup: Setup, topology: str, path) -> CircuitFit:
             remedy="check the span holds the resonance and the bench options are right",
             path=path,
         ) from None
+
+
+def _relative(fit: CircuitFit, target: str) -> float:
+    """The fit's relative standard uncertainty of the target, refused if undetermined."""
+    q = fit[target]
+    if not q.determined:
+        raise FitError(
+            f"the sweep cannot determine {target}: {q.reason}",
+            remedy="aim the --target at a value the bench determines, e.g. Q or f0",
+            path=fit.sweep.get("source"),
+        )
+    return q.stderr / abs(q.value)
 
 
 def _sigmas(points, fit: CircuitFit) -> np.ndarray:
