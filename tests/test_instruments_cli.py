@@ -2,6 +2,13 @@
 
 from __future__ import annotations
 
+import os
+import signal
+import subprocess
+import sys
+import time
+from pathlib import Path
+
 import pytest
 from click.testing import CliRunner
 
@@ -35,6 +42,7 @@ def test_acquire_on_the_simulated_bench_prints_the_fit_and_writes_both_files(tmp
         (["--span", "100k:1M", "--sense-r", "47"], "no instruments given"),
         (["--simulated", "series", "--target", "Q=0.5"], "cannot read the target"),
         (["--simulated", "series", "--resume"], "there is no sweep to continue"),
+        (["--simulated", "series", "--sense-r", "47"], "drop --sense-r"),
     ],
 )
 def test_acquire_refuses_with_a_clear_message(tmp_path, args, message):
@@ -58,3 +66,36 @@ def test_simbench_serves_on_loopback_and_stops():
     assert result.exit_code == 0
     assert "generator  TCPIP::127.0.0.1::" in result.stdout
     assert "fitkit acquire sweep.csv --generator TCPIP::127.0.0.1::" in result.stdout
+
+
+def test_ctrl_c_stops_acquire_with_the_points_saved(tmp_path):
+    out = tmp_path / "s.csv"
+    root = Path(__file__).resolve().parent.parent
+    env = {**os.environ, "PYTHONPATH": str(root)}
+    argv = [
+        sys.executable,
+        "-m",
+        "fitkit",
+        "acquire",
+        str(out),
+        "--simulated",
+        "series",
+        "--target",
+        "Q=0.0001%",
+        "--max-points",
+        "5000",
+        "--settle-min",
+        "0",
+    ]
+    proc = subprocess.Popen(
+        argv, cwd=tmp_path, env=env, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True
+    )
+    deadline = time.monotonic() + 60
+    while not out.exists() and time.monotonic() < deadline:
+        time.sleep(0.05)
+    time.sleep(0.5)
+    proc.send_signal(signal.SIGINT)
+    _, err = proc.communicate(timeout=60)
+    assert proc.returncode == 130
+    assert "Stopped: the generator output is off" in err
+    assert "# state: incomplete" in out.read_text(encoding="utf-8")

@@ -198,6 +198,12 @@ def acquire_command(sweep_file, **opts):
     vpp = 2 * 2**0.5  # volts peak-to-peak per volt RMS of a sine
     model, span = None, opts["span"]
     if opts["simulated"]:
+        given = [o for o in ("sense_r", "feed_r", "probe_c") if opts[o]]
+        if given:
+            raise SetupError(
+                "the simulated bench brings its own circuit and bench",
+                remedy="drop " + ", ".join("--" + o.replace("_", "-") for o in given),
+            )
         model = scenario_model(opts["simulated"])
         setup, topology = model.setup, model.topology
         span = span or "{:g}:{:g}".format(*SCENARIOS[opts["simulated"]][2])
