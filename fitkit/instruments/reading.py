@@ -17,6 +17,14 @@ Ranging: a channel whose record reaches the rail of its range (clipped) goes one
 up and the point is read again; a channel using under a third of its range goes
 down while the trace still fits in the smaller range. A point still clipped on the
 largest range is refused with a message.
+
+Equal noise: the fit weights every point alike (it takes no per-point weights), which
+is honest only when the points are about equally noisy. Where the circuit loads the
+generator (a series circuit at resonance) the input channel drops and a point's ratio is
+noisier, so once a noise goal is set (the session sets the median of the coarse pass),
+a point noisier than 1.3 times the goal is read again with a record longer by
+``(sigma / goal)^2`` (noise falls as one over the square root of the samples), at most
+16 times the default length.
 """
 
 from __future__ import annotations
@@ -36,6 +44,8 @@ _FILL_LOW = 1.0 / 3.0  # a trace under this share of its range goes a range down
 _FILL_HIGH = 0.8  # ...when it then fills at most this share of the smaller range
 _MAX_READS = 8
 _SETTLE_TIME_CONSTANTS = 7.0  # e^-7 < 0.1 %
+_EQUAL_NOISE = 1.3  # a point noisier than this times the goal is read again, longer
+_LONGEST = 16.0  # the longest record, in default record lengths
 
 
 @dataclass(frozen=True)
@@ -106,6 +116,7 @@ class PointReader:
         self.ranges = list(part["ranges"])
         self.range_index = {c: len(self.ranges) - 1 for c in self.channels}
         self.envelope_periods = 0.0
+        self.noise_goal = None
 
     def settle_for(self, q_loaded: float) -> None:
         """Wait at least 7 envelope time constants of a circuit of this loaded Q."""
@@ -130,21 +141,34 @@ class PointReader:
         s = self.settings
         periods = max(s.settle_periods, self.envelope_periods)
         time.sleep(max(periods / freq_hz, s.settle_min_s))
-        for reads in range(1, _MAX_READS + 1):
-            ratio, sigma, peaks = self._measure(freq_hz)
-            if not self._rerange(peaks, freq_hz):
+        length, reads = 1.0, 0
+        while reads < _MAX_READS:
+            reads += 1
+            ratio, sigma, peaks = self._measure(freq_hz, length)
+            if self._rerange(peaks, freq_hz):
+                continue
+            longer = self._length_for(sigma)
+            if longer <= length:
                 return Point(float(freq_hz), ratio, sigma, reads)
+            length = longer
         raise InstrumentError(
             f"the vertical range did not settle at {freq_hz:.6g} Hz after {_MAX_READS} reads",
             remedy="check the signal is steady (no intermittent contact), or fix the ranges",
             path=self.digitiser.address,
         )
 
-    def _measure(self, freq_hz: float) -> tuple:
+    def _length_for(self, sigma: float) -> float:
+        """How much longer a record must be to bring ``sigma`` to the noise goal."""
+        if self.noise_goal is None or not sigma > _EQUAL_NOISE * self.noise_goal:
+            return 1.0
+        return min((sigma / self.noise_goal) ** 2, _LONGEST)
+
+    def _measure(self, freq_hz: float, length: float = 1.0) -> tuple:
         d, s = self.digitiser, self.settings
+        periods, samples = s.record_periods * length, round(s.record_points * length)
         if d.profile.has("set_duration"):
-            d.send("set_duration", duration=s.record_periods / freq_hz)
-            d.send("set_points", points=s.record_points)
+            d.send("set_duration", duration=periods / freq_hz)
+            d.send("set_points", points=samples)
         if s.mode == "scope":
             vin, vout = (d.ask_number("measure_amplitude", channel=c) for c in self.channels)
             phase = d.ask_number(
@@ -163,7 +187,7 @@ class PointReader:
                 path=d.address,
             )
         self._check_input(float(np.max(np.abs(records[0]))), freq_hz)
-        interval = s.record_periods / freq_hz / records[0].size
+        interval = periods / freq_hz / records[0].size
         fit = channel_ratio(records[0], records[1], interval, freq_hz)
         return fit.ratio, fit.sigma, [float(np.max(np.abs(r))) for r in records]
 

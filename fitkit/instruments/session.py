@@ -221,6 +221,9 @@ def _sweep(request, setup, reader, result, metadata, progress) -> None:
     have = np.array([pt.freq_hz for pt in points])
     coarse = np.geomspace(request.start_hz, request.stop_hz, request.coarse_points)
     take([float(f) for f in coarse if not np.any(np.abs(have / f - 1.0) < 1e-9)])
+    sigmas = [pt.sigma for pt in points if math.isfinite(pt.sigma)]
+    if sigmas:
+        reader.noise_goal = float(np.median(sigmas))
     placed = 0
     for round_no in range(request.max_points):
         result.fit = _fit(points, setup, request.topology, result.path)
