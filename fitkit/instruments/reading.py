@@ -87,13 +87,16 @@ class Point:
     sigma : float
         Standard deviation of the ratio's real (and imaginary) part; NaN when unknown.
     reads : int
-        How many reads it took (ranging and clipped reads count).
+        How many reads it took (ranging, clipped and longer reads count).
+    length : float
+        The kept record's length in default record lengths (longer for equal noise).
     """
 
     freq_hz: float
     ratio: complex
     sigma: float
     reads: int
+    length: float = 1.0
 
 
 class PointReader:
@@ -149,7 +152,7 @@ class PointReader:
                 continue
             longer = self._length_for(sigma)
             if longer <= length:
-                return Point(float(freq_hz), ratio, sigma, reads)
+                return Point(float(freq_hz), ratio, sigma, reads, length)
             length = longer
         raise InstrumentError(
             f"the vertical range did not settle at {freq_hz:.6g} Hz after {_MAX_READS} reads",
