@@ -22,7 +22,7 @@ Equal noise: the fit weights every point alike (it takes no per-point weights), 
 is honest only when the points are about equally noisy. Where the circuit loads the
 generator (a series circuit at resonance) the input channel drops and a point's ratio is
 noisier, so once a noise goal is set (the session sets the median of the coarse pass),
-a point noisier than 1.3 times the goal is read again with a record longer by
+a point noisier than 1.1 times the goal is read again with a record longer by
 ``(sigma / goal)^2`` (noise falls as one over the square root of the samples), at most
 16 times the default length.
 """
@@ -44,7 +44,7 @@ _FILL_LOW = 1.0 / 3.0  # a trace under this share of its range goes a range down
 _FILL_HIGH = 0.8  # ...when it then fills at most this share of the smaller range
 _MAX_READS = 8
 _SETTLE_TIME_CONSTANTS = 7.0  # e^-7 < 0.1 %
-_EQUAL_NOISE = 1.3  # a point noisier than this times the goal is read again, longer
+_EQUAL_NOISE = 1.1  # a point noisier than this times the goal is read again, longer
 _LONGEST = 16.0  # the longest record, in default record lengths
 
 
@@ -65,6 +65,8 @@ class ReadSettings:
         Periods in each captured record.
     record_points : int
         Samples in each captured record.
+    equal_noise : bool
+        Read noisy points again with longer records (see the module notes).
     """
 
     mode: str = "waveform"
@@ -72,6 +74,7 @@ class ReadSettings:
     settle_min_s: float = 0.002
     record_periods: float = 10.0
     record_points: int = 1000
+    equal_noise: bool = True
 
 
 @dataclass(frozen=True)

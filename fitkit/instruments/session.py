@@ -222,7 +222,7 @@ def _sweep(request, setup, reader, result, metadata, progress) -> None:
     coarse = np.geomspace(request.start_hz, request.stop_hz, request.coarse_points)
     take([float(f) for f in coarse if not np.any(np.abs(have / f - 1.0) < 1e-9)])
     sigmas = [pt.sigma for pt in points if math.isfinite(pt.sigma)]
-    if sigmas:
+    if sigmas and reader.settings.equal_noise:
         reader.noise_goal = float(np.median(sigmas))
     placed = 0
     for round_no in range(request.max_points):
