@@ -31,11 +31,11 @@ import numpy as np
 
 from fitkit.fitting import fit_sweep
 from fitkit.instruments.bench_model import SCENARIOS, scenario_model
+from fitkit.instruments.powered import powered
 from fitkit.instruments.profile import load_profile
-from fitkit.instruments.reading import PointReader, ReadSettings
+from fitkit.instruments.reading import ReadSettings
 from fitkit.instruments.session import SweepRequest, take_sweep
 from fitkit.instruments.simbench import SimulatedBench
-from fitkit.instruments.transport import connect, resource_manager
 from fitkit.sweep import Sweep
 
 TARGET = 0.002  # Q to 0.2 %
@@ -62,30 +62,17 @@ def adaptive(model, span, folder: Path) -> tuple:
 
 
 def linear(model, span) -> tuple:
-    profile = load_profile()
-    manager = resource_manager()
     with SimulatedBench(model) as bench:
-        with (
-            connect(manager, bench.addresses["generator"], profile.generator) as gen,
-            connect(manager, bench.addresses["digitiser"], profile.digitiser) as dig,
-        ):
-            gen.send("set_amplitude", amplitude=1.0)
-            gen.send("output_on")
-            try:
-                reader = PointReader(gen, dig, SETTINGS)
-                reader.prepare()
-                n = 25
-                while True:
-                    f = np.linspace(*span, n)
-                    values = np.array([reader.read(x).ratio for x in f])
-                    fit = fit_sweep(Sweep(f, values, "ratio"), model.setup, topology=model.topology)
-                    rel = fit["Q"].stderr / fit["Q"].value
-                    if rel <= TARGET or n >= 3200:
-                        return n, rel
-                    n *= 2
-            finally:
-                gen.send("output_off")
-    manager.close()
+        with powered(load_profile(), bench.addresses, 1.0, settings=SETTINGS) as reader:
+            n = 25
+            while True:
+                f = np.linspace(*span, n)
+                values = np.array([reader.read(x).ratio for x in f])
+                fit = fit_sweep(Sweep(f, values, "ratio"), model.setup, topology=model.topology)
+                rel = fit["Q"].stderr / fit["Q"].value
+                if rel <= TARGET or n >= 3200:
+                    return n, rel
+                n *= 2
 
 
 def main() -> None:

@@ -18,16 +18,13 @@ pytest.importorskip("pyvisa_py")
 
 from fitkit.errors import SetupError  # noqa: E402
 from fitkit.instruments.bench_model import scenario_model  # noqa: E402
+from fitkit.instruments.powered import powered  # noqa: E402
 from fitkit.instruments.profile import load_profile  # noqa: E402
-from fitkit.instruments.reading import PointReader, ReadSettings  # noqa: E402
+from fitkit.instruments.reading import ReadSettings  # noqa: E402
 from fitkit.instruments.session import SweepRequest, take_sweep  # noqa: E402
 from fitkit.instruments.simbench import SimulatedBench  # noqa: E402
 from fitkit.instruments.sweep_file import read_points  # noqa: E402
-from fitkit.instruments.transport import (  # noqa: E402
-    InstrumentError,
-    connect,
-    resource_manager,
-)
+from fitkit.instruments.transport import InstrumentError  # noqa: E402
 from fitkit.readers import read_sweep  # noqa: E402
 
 FAST = ReadSettings(settle_periods=0, settle_min_s=0, record_points=400)
@@ -208,26 +205,15 @@ def test_a_user_profile_with_scope_measurements_reads_the_ratio(tmp_path):
 
 def test_a_clipped_point_is_read_again_on_a_larger_range():
     sim = scenario_model("series")
-    profile = load_profile()
-    manager = resource_manager()
     with SimulatedBench(sim) as bench:
-        with (
-            connect(manager, bench.addresses["generator"], profile.generator) as gen,
-            connect(manager, bench.addresses["digitiser"], profile.digitiser) as dig,
-        ):
-            gen.send("set_amplitude", amplitude=1.0)
-            gen.send("output_on")
-            reader = PointReader(gen, dig, FAST)
+        with powered(load_profile(), bench.addresses, 1.0, settings=FAST) as reader:
             reader.range_index = {1: 0, 2: 0}  # both channels on 10 mV: the record clips
             reader.prepare()
             point = reader.read(339e3)
-            gen.send("output_off")
-    manager.close()
     assert point.reads > 3
     # the circuit's own ratio at this frequency (the model checked against ngspice)
     v1, v2 = sim.voltages(339e3, 1.0)
     assert abs(point.ratio - v2 / v1) < 4 * point.sigma
     # and the ranges the reader settled on hold the traces without clipping
-    assert (
-        reader.ranges[reader.range_index[1]] > abs(v1) > 0.3 * reader.ranges[reader.range_index[1]]
-    )
+    held = reader.ranges[reader.range_index[1]]
+    assert held > abs(v1) > 0.3 * held

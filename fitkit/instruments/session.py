@@ -3,16 +3,13 @@
 The order of work:
 
 1. refuse a generator amplitude above the ceiling before anything is connected;
-2. connect both instruments (``with`` blocks), ask who they are, reset them where the
-   profile says how, set the amplitude, check both error queues, switch the output on;
+2. connect, set up and switch the output on (:func:`fitkit.instruments.powered.powered`);
 3. a coarse pass over the span finds the resonance (the fit's closed-form start needs
    only the complex ratio, so a few points across the span suffice);
 4. rounds of a few points each where the Fisher information of the chosen model is
    largest (:mod:`fitkit.instruments.placement`), refitting after each round, until the
    target precision is reached, or the point budget or the time limit is;
-5. the output goes off at the end, on Ctrl-C and on any error (in a ``finally``); if the
-   connection is lost it is opened again to switch the output off, and if even that
-   fails the message says to switch it off by hand.
+5. the output goes off at the end, on Ctrl-C and on any error.
 
 Every point is saved as it comes (:mod:`fitkit.instruments.sweep_file`); a stopped sweep
 can be continued from its file.
@@ -21,7 +18,6 @@ can be continued from its file.
 from __future__ import annotations
 
 import math
-import sys
 import time
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -31,10 +27,10 @@ import numpy as np
 from fitkit.errors import FitError, FitkitError, SetupError
 from fitkit.fitting import fit_sweep
 from fitkit.instruments.placement import InformationModel
+from fitkit.instruments.powered import DEFAULT_CEILING_VPP, check_amplitude, powered
 from fitkit.instruments.profile import Profile
-from fitkit.instruments.reading import PointReader, ReadSettings
+from fitkit.instruments.reading import ReadSettings
 from fitkit.instruments.sweep_file import read_points, write_points
-from fitkit.instruments.transport import InstrumentError, connect, resource_manager
 from fitkit.result import CircuitFit
 from fitkit.setups import Setup
 from fitkit.sweep import Sweep
@@ -74,7 +70,7 @@ class SweepRequest:
     start_hz: float
     stop_hz: float
     amplitude_vpp: float = 1.0
-    ceiling_vpp: float = 5.0
+    ceiling_vpp: float = DEFAULT_CEILING_VPP
     topology: str = "series"
     target: str = "Q"
     target_rel: float = 0.01
@@ -85,13 +81,7 @@ class SweepRequest:
 
     def check(self) -> None:
         """Refuse an unsafe or impossible request before anything is connected."""
-        if not (0 < self.amplitude_vpp <= self.ceiling_vpp):
-            raise SetupError(
-                f"the generator amplitude {self.amplitude_vpp:g} Vpp is above the ceiling "
-                f"of {self.ceiling_vpp:g} Vpp (or not above zero)",
-                remedy="lower --amplitude; raise --max-amplitude only if the circuit and "
-                "everyone near it are safe at that level",
-            )
+        check_amplitude(self.amplitude_vpp, self.ceiling_vpp)
         if not (0 < self.start_hz < self.stop_hz):
             raise SetupError(
                 f"the span {self.start_hz:g} Hz to {self.stop_hz:g} Hz is not a span",
@@ -173,36 +163,22 @@ def take_sweep(
         "settings": f"{request.amplitude_vpp:.4g} Vpp, read by {settings.mode}, "
         f"profile {profile.name}",
     }
-    manager = resource_manager()
     result = TakenSweep(Path(out_path), points, None, "")
     try:
-        with (
-            connect(manager, addresses["generator"], profile.generator) as gen,
-            connect(manager, addresses["digitiser"], profile.digitiser) as dig,
-        ):
-            for inst in (gen, dig):
-                metadata[inst.role] = inst.identify()
-                if inst.profile.has("reset"):
-                    inst.send("reset")
-                inst.wait()
-                inst.check_errors("the reset")
-            result.identities = {"generator": gen.identity, "digitiser": dig.identity}
-            if gen.profile.has("amplitude_unit"):
-                gen.send("amplitude_unit")
-            gen.send("set_amplitude", amplitude=float(request.amplitude_vpp))
-            reader = PointReader(gen, dig, settings)
-            reader.prepare()
-            gen.check_errors("setting the amplitude")
-            dig.check_errors("setting the ranges")
-            try:
-                gen.send("output_on")
-                _sweep(request, setup, reader, result, metadata, progress)
-            finally:
-                _switch_off(manager, gen, addresses["generator"], profile)
+        with powered(
+            profile,
+            addresses,
+            request.amplitude_vpp,
+            ceiling_vpp=request.ceiling_vpp,
+            settings=settings,
+        ) as reader:
+            result.identities = {
+                inst.role: inst.identity for inst in (reader.generator, reader.digitiser)
+            }
+            metadata.update(result.identities)
+            _sweep(request, setup, reader, result, metadata, progress)
     except FitkitError as exc:
         raise _with_saved(exc, result) from None
-    finally:
-        manager.close()
     return result
 
 
@@ -294,29 +270,6 @@ def _sigmas(points, fit: CircuitFit) -> np.ndarray:
     """Each point's own sigma; the fit's residual RMS where a point has none."""
     fallback = fit.stats.rms / math.sqrt(2.0) if fit.stats.rms > 0 else 1e-3
     return np.array([pt.sigma if math.isfinite(pt.sigma) else fallback for pt in points])
-
-
-def _switch_off(manager, gen, address: str, profile: Profile) -> None:
-    """Switch the generator output off; reconnect once if the connection is gone."""
-    stopped = sys.exc_info()[1]  # called from a finally: the error that stopped the sweep
-    try:
-        gen.send("output_off")
-        gen.wait()  # the instrument has taken the command, not only the cable
-        return
-    except InstrumentError:
-        pass
-    try:
-        with connect(manager, address, profile.generator) as again:
-            again.send("output_off")
-            again.wait()
-    except InstrumentError:
-        why = getattr(stopped, "message", type(stopped).__name__)
-        why = f" (the sweep had stopped: {why})" if stopped else ""
-        raise InstrumentError(
-            "could not switch the generator output off" + why,
-            remedy="SWITCH THE GENERATOR OUTPUT OFF BY HAND, then check the connection",
-            path=address,
-        ) from None
 
 
 def _with_saved(exc: FitkitError, result: TakenSweep) -> FitkitError:
