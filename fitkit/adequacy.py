@@ -87,12 +87,12 @@ def variance_ratio_p_value(radial: np.ndarray, tangential: np.ndarray) -> tuple:
     return float(min(1.0, 2.0 * tail)), ratio
 
 
-def check_structure(parts: dict) -> list:
+def check_structure(parts: dict, alpha: float = ALPHA) -> list:
     """Runs and periodogram tests on each residual part (``{"magnitude": r, ...}``)."""
     parts = {k: v for k, v in parts.items() if v is not None and v.size >= _MIN_POINTS}
     if not parts:
         return []
-    level = ALPHA / (2 * len(parts) + 1)
+    level = alpha / (2 * len(parts) + 1)
     found = []
     for name, r in parts.items():
         p_runs = runs_p_value(r)

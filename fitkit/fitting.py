@@ -112,9 +112,11 @@ def fit_sweep(
         problem, first, choice, _ = choose_topology(sweep, setup, known, domain, keep_outliers)
     else:
         problem = FitProblem(sweep, setup, get_topology(topology), known)
-        problem, first = add_bench_terms(problem, problem.first_pass(domain, keep_outliers))
+        first = problem.first_pass(domain, keep_outliers)
     if not (noise_model.stated or noise_model.fixed_domain):
         first, _ = choose_noise_domain(problem, first, domain)
+    if topology != "auto":  # (the candidates of auto earned theirs as they were fitted)
+        problem, first = add_bench_terms(problem, first)
     problem.check_inside(math.exp(first.params["lnf0"].value), "the fitted resonance")
     evidence = resonance_evidence(problem, first)
     f = sweep.freq_hz

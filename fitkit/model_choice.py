@@ -19,6 +19,7 @@ import math
 
 import numpy as np
 
+from fitkit.adequacy import check_structure
 from fitkit.errors import FitError
 from fitkit.noise import RELATIVE_EVIDENCE, Noise, relative_evidence
 from fitkit.nuisance import PARAMETER, applicable
@@ -27,6 +28,7 @@ from fitkit.topologies import TOPOLOGIES
 from fitkit.units import format_quantity
 
 EVIDENCE = 10.0
+_LOOSE = 0.05  # the level at which residuals are worth a bench-term trial
 _PLAIN = ("series", "tank", "coil")
 #: how a model is named in words
 _WORDS = {
@@ -157,7 +159,12 @@ def choose_noise_domain(problem: FitProblem, first: FirstPass, default: str) -> 
 
 
 def add_bench_terms(problem: FitProblem, first: FirstPass) -> tuple:
-    """Switch on the bench terms that earn their place, one at a time."""
+    """Switch on the bench terms that earn their place, one at a time. Only residuals
+    with some order in them (runs or slow waves at a loose 5 % level) can hide a term
+    worth 10 in the criterion, so a sweep whose residuals look white is spared the
+    trials."""
+    if not _has_structure(problem, first):
+        return problem, first
     current, current_first = problem, first
     score = bic(problem, first, first.used)
     remaining = [t for t in applicable(problem.sweep, problem.setup)]
@@ -207,3 +214,8 @@ def resonance_evidence(problem: FitProblem, first: FirstPass) -> float:
     n, k = r.size, 2 * (2 if np.iscomplexobj(d) else 1)
     line = n * math.log(max(float(np.sum(r**2)), 1e-300 * n) / n) + k * math.log(n)
     return line - bic(problem, first, idx)
+
+
+def _has_structure(problem: FitProblem, first: FirstPass) -> bool:
+    a, b = problem.raw_residual(first.params.valuesdict(), first.used, first.domain)
+    return bool(check_structure({"magnitude": a, "phase": b}, alpha=_LOOSE))
