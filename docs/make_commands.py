@@ -17,7 +17,9 @@ TARGET = ROOT / "docs" / "commands.md"
 
 def reference_text() -> str:
     """The command reference, one section per command, from ``--help``."""
-    from fitkit.cli import main
+    from fitkit.cli import load_all
+
+    main = load_all()
 
     parts = [
         "# Command reference",

@@ -8,16 +8,40 @@ The public API: read a sweep, describe the bench, fit, and use the result.
 220.080 uH +/- 0.058 uH
 """
 
-__version__ = "0.1.0"
+import importlib
 
-from fitkit.errors import FitError, FitkitError, InputError, PredictionError, SetupError
-from fitkit.fitting import fit_sweep
-from fitkit.readers import read_sweep
-from fitkit.result import CircuitFit, Quantity, load_fit
-from fitkit.setups import Setup
-from fitkit.sweep import Sweep
-from fitkit.units import format_quantity, parse_quantity
-from fitkit.workflow import fit_file
+from fitkit.version import __version__
+
+#: public name -> the module that defines it; imported on first use (PEP 562), so that
+#: ``import fitkit`` and the command line's start-up stay quick
+_WHERE = {
+    "CircuitFit": "fitkit.result",
+    "FitError": "fitkit.errors",
+    "FitkitError": "fitkit.errors",
+    "InputError": "fitkit.errors",
+    "PredictionError": "fitkit.errors",
+    "Quantity": "fitkit.result",
+    "Setup": "fitkit.setups",
+    "SetupError": "fitkit.errors",
+    "Sweep": "fitkit.sweep",
+    "fit_file": "fitkit.workflow",
+    "fit_sweep": "fitkit.fitting",
+    "format_quantity": "fitkit.units",
+    "load_fit": "fitkit.result",
+    "parse_quantity": "fitkit.units",
+    "read_sweep": "fitkit.readers",
+}
+
+
+def __getattr__(name: str):
+    if name in _WHERE:
+        return getattr(importlib.import_module(_WHERE[name]), name)
+    raise AttributeError(f"module 'fitkit' has no attribute {name!r}")
+
+
+def __dir__() -> list:
+    return sorted(__all__)
+
 
 __all__ = [
     "CircuitFit",

@@ -26,10 +26,10 @@ from pathlib import Path
 
 import numpy as np
 
-from fitkit import __version__
 from fitkit.errors import FitkitError, InputError
 from fitkit.result import QUANTITIES
 from fitkit.spec import Spec, judge
+from fitkit.version import __version__
 
 #: file name endings a folder is searched for
 SWEEP_SUFFIXES = (".csv", ".tsv", ".txt", ".dat", ".s1p", ".s2p", ".ts")

@@ -11,9 +11,9 @@ from dataclasses import dataclass, field
 import numpy as np
 from uncertainties import correlated_values, ufloat
 
-from fitkit import __version__
 from fitkit.errors import InputError
 from fitkit.units import format_quantity
+from fitkit.version import __version__
 
 #: name -> (unit, label) for everything a fit reports
 QUANTITIES = {

@@ -124,6 +124,26 @@ def test_setup_file_with_unknown_key(tmp_path):
 
 
 def test_every_command_has_help():
-    for name, command in main.commands.items():
+    from fitkit.cli import load_all
+    from fitkit.cli.base import COMMANDS
+
+    commands = load_all().commands
+    assert sorted(commands) == sorted(COMMANDS)  # the start-up table lists every command
+    for name, command in commands.items():
         assert command.help, name
         assert run(name, "--help").exit_code == 0
+
+
+def test_start_up_imports_no_numerical_library():
+    """'fitkit --help' and '--version' must stay quick: no lmfit, scipy, matplotlib or
+    pandas until a command needs them (checked in a fresh interpreter)."""
+    import subprocess
+    import sys
+
+    code = (
+        "import sys; from click.testing import CliRunner; from fitkit.cli import main; "
+        "CliRunner().invoke(main, ['--help']); CliRunner().invoke(main, ['--version']); "
+        "print(sorted(m for m in ('lmfit', 'scipy', 'matplotlib', 'pandas') if m in sys.modules))"
+    )
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert out.stdout.strip() == "[]"

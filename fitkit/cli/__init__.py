@@ -1,17 +1,18 @@
-"""The command line: each module holds one command that parses, calls the library, prints."""
+"""The command line: each module holds one command that parses, calls the library, prints.
 
-from fitkit.cli import (  # noqa: F401  (importing a module registers its command)
-    acquire_cmd,
-    batch_cmd,
-    drift_cmd,
-    fit_cmd,
-    inspect_cmd,
-    plan_cmd,
-    predict_cmd,
-    report_cmd,
-    show_cmd,
-    simbench_cmd,
-)
-from fitkit.cli.base import main
+Command modules are imported when their command runs (see ``fitkit.cli.base.COMMANDS``);
+:func:`load_all` imports every one, for tools that walk the commands.
+"""
 
-__all__ = ["main"]
+import importlib
+
+from fitkit.cli.base import COMMANDS, main
+
+__all__ = ["load_all", "main"]
+
+
+def load_all():
+    """Import every command module, so that ``main.commands`` holds them all."""
+    for module, _ in COMMANDS.values():
+        importlib.import_module(f"fitkit.cli.{module}")
+    return main

@@ -8,7 +8,6 @@ import re
 import click
 import numpy as np
 
-from fitkit import __version__
 from fitkit.bench_file import build_setup, known_values, load_bench_file
 from fitkit.circuits import TWO_PI
 from fitkit.cli.base import main, reports_errors
@@ -32,6 +31,7 @@ from fitkit.setups import Setup
 from fitkit.sweep import KINDS, Sweep
 from fitkit.topologies import TOPOLOGIES
 from fitkit.units import format_quantity, parse_quantity
+from fitkit.version import __version__
 
 #: short names accepted by --target
 TARGET_NAMES = {

@@ -8,12 +8,12 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from fitkit import __version__
 from fitkit.errors import refuse_overwrite
 from fitkit.report.axes import figure_bytes
 from fitkit.report.pages import data_uri, render
 from fitkit.result import QUANTITIES, CircuitFit
 from fitkit.spec import Spec, judge
+from fitkit.version import __version__
 
 
 def plot_png(fit: CircuitFit) -> bytes | None:

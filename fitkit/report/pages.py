@@ -8,7 +8,7 @@ import base64
 import datetime
 import functools
 
-from fitkit import __version__
+from fitkit.version import __version__
 
 
 @functools.lru_cache(maxsize=1)

@@ -2,10 +2,10 @@
 
 from __future__ import annotations
 
-from fitkit import __version__
 from fitkit.result import QUANTITIES, CircuitFit
 from fitkit.setups import Setup
 from fitkit.topologies import TOPOLOGIES
+from fitkit.version import __version__
 
 
 def fit_table(fit: CircuitFit) -> str:
