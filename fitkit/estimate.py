@@ -20,7 +20,6 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy.optimize import minimize_scalar
 
 from fitkit.circuits import TWO_PI
 from fitkit.setups import Setup
@@ -248,6 +247,8 @@ class _Search:
     def scale(self, f0: float, q: float) -> tuple:
         """The best scale and, when a distinct second one matches about as well (a
         magnitude-only reflection cannot tell R from Z0^2/R), that one too."""
+        from scipy.optimize import minimize_scalar  # (kept out of 'fitkit plan's start-up)
+
         floor = self.setup.external_ohm if self.topology.scale_floor_is_fixture else 0.0
         grid = np.linspace(np.log(max(floor, 1e-3) * 1.0001), np.log(1e9), 49)
         costs = np.array([self.cost(f0, q, g) for g in grid])

@@ -10,10 +10,8 @@ from fitkit.bench_file import (
 from fitkit.cli.base import main, plot_options, reports_errors
 from fitkit.cli.read_options import columns_from_options, read_options
 from fitkit.errors import InputError, refuse_overwrite
-from fitkit.report.table import fit_table
 from fitkit.setups import BENCHES, DISPLAYS, REFERENCES
 from fitkit.topologies import TOPOLOGIES
-from fitkit.workflow import fit_file
 
 
 def bench_options(func):
@@ -119,6 +117,9 @@ def fit_command(sweep_file, noise, model, keep_outliers, as_json, plot_path, for
     Every value comes with its standard uncertainty; values the sweep cannot determine
     are named, with what would determine them. Exit status 2 on bad input or a failed fit.
     """
+    from fitkit.report.table import fit_table  # the fit's libraries load when it runs
+    from fitkit.workflow import fit_file
+
     if plot_path:
         refuse_overwrite(plot_path, "plot", force)
     if sweep_file.lower().endswith(".json"):
