@@ -8,6 +8,7 @@ import sys
 import click
 
 from fitkit.cli.base import main, reports_errors
+from fitkit.units import format_quantity
 
 _TARGET_NAMES = {"R": "R", "L": "L", "C": "C", "f0": "f0_hz", "Q": "Q", "bandwidth": "bandwidth_hz"}
 
@@ -49,9 +50,9 @@ def _progress(target: str):
 
     def show(points: int, fit) -> None:
         q = fit[target]
-        parts = [f"{points:4d} points", f"f0 {fit['f0_hz'].text()}"]
+        parts = [f"{points:4d} points", f"f0 {_brief(fit['f0_hz'])}"]
         if target != "f0_hz":
-            parts.append(f"{QUANTITIES[target][1].split(' (')[0]} {q.text()}")
+            parts.append(f"{QUANTITIES[target][1].split(' (')[0]} {_brief(q)}")
         parts.append(f"({q.stderr / abs(q.value):.2%})")
         click.echo("  " + "  ".join(parts), err=True)
 
@@ -264,3 +265,10 @@ def acquire_command(sweep_file, **opts):
     click.echo(fit_table(fit))
     click.echo(f"  stopped  {taken.stopped}")
     click.echo(f"  sweep    written to {out}, setup to {setup_path}")
+
+
+def _brief(q) -> str:
+    """Value and uncertainty only, marked when doubtful (a progress line stays short)."""
+    if not q.determined:
+        return "not determined"
+    return format_quantity(q.value, q.unit, q.stderr) + (" (doubtful)" if q.doubtful else "")
