@@ -87,7 +87,10 @@ def choose_topology(sweep, setup, known, domain: str, keep_outliers: bool) -> tu
     winner = min([winner, *close], key=lambda n: len(TOPOLOGIES[n].extras))
     # a richer version of the one reported that does no better is not a rival
     family = TOPOLOGIES[winner].family
-    rivals = [n for n in ranked if TOPOLOGIES[n].family != family]
+    rivals = []  # the best of each other family
+    for n in ranked:
+        if TOPOLOGIES[n].family not in {family, *(TOPOLOGIES[r].family for r in rivals)}:
+            rivals.append(n)
     close = [n for n in rivals if score[n] - score[winner] < EVIDENCE]
     if close:
         text = (

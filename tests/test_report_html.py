@@ -99,7 +99,7 @@ def test_batch_report_puts_failures_first_with_limits_charts_and_short_names(
         assert name in seen["headers"] and f"{name} verdict" in seen["headers"]
     # the limits of spec.toml: L 470 uH +- 5 %, C 2.2 nF +- 5 %
     assert "446.5 uH to 493.5 uH" in text and "2.09 nF to 2.31 nF" in text
-    assert "above the limit 2.31 nF" in text  # kit 07's failure, in full
+    assert "above the limit 2.3100 nF" in text  # kit 07's failure, in full
     # the reason of the file not fitted is shown whole
     assert "the file holds 1 point(s) of data" in text and "export it again" in text
     assert "stands out" not in text or "f0_hz" not in text  # labels, not internal keys

@@ -41,8 +41,7 @@ def values_box(fit: CircuitFit) -> str:
     for name, label in BOX:
         q = fit.quantities.get(name)
         if q is not None:
-            mark = " (doubtful)" if getattr(q, "doubtful", "") else ""
-            lines.append(f"{label} = {q.text()}{mark}")
+            lines.append(f"{label} = {q.text()}")
     return "\n".join(lines)
 
 

@@ -78,6 +78,7 @@ def prediction_from_dict(data: dict, source: str = "<json>"):
             limit = LossLimit(lim["required_db"], Carrier(lim["binding_freq_hz"]),
                               _uvalue(lim["r_max_ohm"]), _uvalue(lim["q_loaded_min"]))  # fmt: skip
         c_range = data.get("c_range_f")
+        extremum = (data.get("extremum") or {}).get("freq_hz")
         return Prediction(
             values={n: _uvalue(e) for n, e in data["values"].items()},
             c_origin=data["c_origin"],
@@ -89,6 +90,8 @@ def prediction_from_dict(data: dict, source: str = "<json>"):
             band=band,
             limit=limit,
             c_range_f=tuple(c_range) if c_range else None,
+            extremum_hz=_uvalue(extremum) if extremum else None,
+            notes=tuple(data.get("notes", ())),
         )
     except (KeyError, TypeError, ValueError) as exc:
         raise InputError(
