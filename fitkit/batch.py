@@ -31,6 +31,7 @@ import time
 from collections.abc import Callable, Iterator
 from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
 from concurrent.futures.process import BrokenProcessPool
+from multiprocessing import forkserver, resource_tracker
 from pathlib import Path
 
 from fitkit.batch_inputs import Inputs, file_sha256, record_name, unreadable_reason
@@ -228,6 +229,10 @@ def _pool(workers: int) -> ProcessPoolExecutor:
     ctx = multiprocessing.get_context(method)
     if method == "forkserver":
         ctx.set_forkserver_preload(["fitkit.workflow", "fitkit.batch"])
+    with quiet_c_output():  # the helper processes keep the null device as stdout/stderr
+        resource_tracker.ensure_running()
+        if method == "forkserver":
+            forkserver.ensure_running()
     return ProcessPoolExecutor(
         max_workers=workers, mp_context=ctx, initializer=_worker_start, initargs=(os.getpid(),)
     )
