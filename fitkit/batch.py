@@ -18,6 +18,7 @@ The results (rows, statistics, verdicts, files) are made by :mod:`fitkit.batch_r
 from __future__ import annotations
 
 import contextlib
+import ctypes
 import errno
 import hashlib
 import json
@@ -181,10 +182,16 @@ def quiet_c_output() -> Iterator[None]:
         os.dup2(null, 2)
         yield
     finally:
+        _flush_c_streams()  # what C code buffered goes to the null device too
         os.dup2(saved[0], 1)
         os.dup2(saved[1], 2)
         for fd in (*saved, null):
             os.close(fd)
+
+
+def _flush_c_streams() -> None:
+    with contextlib.suppress(OSError, AttributeError, TypeError):
+        ctypes.CDLL(None).fflush(None)
 
 
 def _worker_start(main_pid: int) -> None:
