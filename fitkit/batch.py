@@ -21,6 +21,7 @@ import contextlib
 import ctypes
 import errno
 import hashlib
+import itertools
 import json
 import multiprocessing
 import os
@@ -35,15 +36,15 @@ from concurrent.futures.process import BrokenProcessPool
 from multiprocessing import forkserver, resource_tracker
 from pathlib import Path
 
-from fitkit.batch_inputs import Inputs, file_sha256, record_name, unreadable_reason
+from fitkit.batch_inputs import Inputs, file_sha256, unreadable_reason
 from fitkit.batch_output import (
     FAILED,
     FITTED,
-    RECORDS_DIR,
     RESULTS_CSV,
     RESULTS_JSON,
     RESULTS_READABLE,
     load_record,
+    record_file,
     write_atomic,
 )
 from fitkit.errors import FitkitError, InputError
@@ -58,6 +59,7 @@ __all__ = [
     "fit_one",
     "fit_with",
     "load_record",
+    "record_file",
     "run_batch",
     "settings_key",
 ]
@@ -253,8 +255,10 @@ def run_batch(
     workers: int = 0,
     resume: bool = False,
     on_done: Callable[[str], None] | None = None,
-) -> list[Path]:
-    """Fit every input, reusing still-valid records when resuming.
+) -> None:
+    """Fit every input and write its record (:func:`record_file`), reusing still-valid
+    records when resuming. Inputs are hashed one by one while the workers fit, and at
+    most a few fits are in flight, so memory does not grow with the number of inputs.
 
     Parameters
     ----------
@@ -264,19 +268,13 @@ def run_batch(
         ``setup_path``, ``overrides``, ``known``, ``noise``, ``topology`` as for
         :func:`fitkit.workflow.fit_file`.
     out : Path
-        The output folder (see :func:`fitkit.batch_output.output_folder`); records go to
-        ``out/fits``.
+        The output folder (see :func:`fitkit.batch_output.output_folder`).
     workers : int
         Worker processes; 0 means one per core; 1 fits in this process.
     resume : bool
         Reuse records of earlier runs for the same path, bytes and settings.
     on_done : callable, optional
         Called with each input's status as it finishes (for a progress bar).
-
-    Returns
-    -------
-    list of Path
-        The record file of each input, in the order of ``inputs.files``.
 
     Raises
     ------
@@ -285,36 +283,36 @@ def run_batch(
     FitkitError
         When a worker process dies from outside.
     """
-    records_dir = out / RECORDS_DIR
-    record_paths, todo = [], []
+    done = on_done or (lambda status: None)
+    jobs = _jobs(inputs, settings, out, resume, done)
+    first = list(itertools.islice(jobs, 2))
+    workers = workers or os.cpu_count() or 1
+    if workers == 1 or len(first) < 2:  # no pool to start for a single fit
+        for args in itertools.chain(first, jobs):
+            done(fit_one(*args))
+    else:
+        _fit_in_pool(itertools.chain(first, jobs), workers, done)
+
+
+def _jobs(
+    inputs: Inputs, settings: dict, out: Path, resume: bool, done: Callable[[str], None]
+) -> Iterator[tuple]:
+    """The fits to do, as arguments of :func:`fit_one`; an input whose record is still
+    valid (when resuming) or that cannot be read is dealt with here."""
     for path in inputs.files:
-        record_path = records_dir / record_name(path, inputs.root)
-        record_paths.append(record_path)
+        record_path = record_file(out, path, inputs.root)
         key = settings_key(path, settings)
         sha = file_sha256(path)
         if resume and _still_valid(load_record(record_path), path, sha, key):
-            status = "reused"
+            done("reused")
         elif sha is None:
-            status = _unreadable_record(path, key, record_path)
+            done(_unreadable_record(path, key, record_path))
         else:
-            todo.append((str(path), sha, key, settings, str(record_path)))
-            continue
-        if on_done:
-            on_done(status)
-    workers = workers or os.cpu_count() or 1
-    if workers == 1 or len(todo) <= 1:
-        for args in todo:
-            status = fit_one(*args)
-            if on_done:
-                on_done(status)
-    else:
-        _fit_in_pool(todo, min(workers, len(todo)), on_done)
-    return record_paths
+            yield str(path), sha, key, settings, str(record_path)
 
 
-def _fit_in_pool(todo: list, workers: int, on_done: Callable[[str], None] | None) -> None:
-    """Fit in worker processes, a few jobs in flight at a time (memory stays flat)."""
-    jobs = iter(todo)
+def _fit_in_pool(jobs: Iterator[tuple], workers: int, done: Callable[[str], None]) -> None:
+    """Fit in worker processes, a few jobs in flight at a time."""
     with _pool(workers) as pool:
         running = set()
         try:
@@ -325,9 +323,7 @@ def _fit_in_pool(todo: list, workers: int, on_done: Callable[[str], None] | None
             while running:
                 finished, running = wait(running, return_when=FIRST_COMPLETED)
                 for future in finished:
-                    status = future.result()
-                    if on_done:
-                        on_done(status)
+                    done(future.result())
                     for args in jobs:
                         running.add(pool.submit(fit_one, *args))
                         break

@@ -22,6 +22,7 @@ from collections.abc import Iterable, Iterator
 from pathlib import Path
 from typing import IO
 
+from fitkit.batch_inputs import record_name
 from fitkit.errors import InputError
 
 RECORDS_DIR = "fits"
@@ -118,6 +119,11 @@ def _say_holder(fd: int, command: str) -> None:
     with contextlib.suppress(OSError):  # the note is a courtesy; the lock is what counts
         os.ftruncate(fd, 0)
         os.pwrite(fd, (text + "\n").encode(), 0)
+
+
+def record_file(out: Path, path: Path, root: Path) -> Path:
+    """Where the record of input ``path`` (below the batch root ``root``) is kept."""
+    return out / RECORDS_DIR / record_name(path, root)
 
 
 def load_record(path: Path) -> dict | None:

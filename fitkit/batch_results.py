@@ -17,6 +17,7 @@ from pathlib import Path
 import numpy as np
 
 from fitkit import __version__
+from fitkit.batch_inputs import Inputs
 from fitkit.batch_output import (
     FITTED,
     RECORDS_DIR,
@@ -25,6 +26,7 @@ from fitkit.batch_output import (
     RESULTS_READABLE,
     atomic_file,
     load_record,
+    record_file,
 )
 from fitkit.result import QUANTITIES
 from fitkit.spec import Spec, judge
@@ -164,16 +166,30 @@ def _first_line(record: dict, file: str) -> str:
     return reason.split("\n")[0]
 
 
-def _records(paths: list[Path]) -> Iterator[tuple[dict, str]]:
-    for path in paths:
-        yield load_record(path) or _lost_record(path), path.name
+def _records(inputs: Inputs, out: Path, only=None) -> Iterator[tuple[int, dict, str]]:
+    """(index, record, record file name) of each input (or of the indices ``only``)."""
+    for i in range(len(inputs.files)) if only is None else only:
+        path = record_file(out, inputs.files[i], inputs.root)
+        yield i, load_record(path) or _lost_record(inputs.files[i]), path.name
 
 
 def _lost_record(path: Path) -> dict:
-    return {"file": str(path), "status": "failed", "reason": f"{path}: the record was lost"}
+    reason = f"{path}: its fit record is missing or damaged\n  fix: run again with --resume"
+    return {"file": str(path), "status": "failed", "reason": reason}
 
 
-def summarise(record_paths: list[Path], spec: Spec | None, *, skipped: list | None = None):
+def _same_bytes(inputs: Inputs, out: Path, prefix: np.ndarray, known: np.ndarray) -> list:
+    """Groups of inputs with identical bytes: candidates share the first 64 bits of their
+    SHA-256; the whole checksum, read again from their records, decides."""
+    _, inverse, counts = np.unique(prefix, return_inverse=True, return_counts=True)
+    candidates = np.flatnonzero(known & (counts[inverse] > 1))
+    groups: dict[str, list[str]] = {}
+    for i, record, _ in _records(inputs, out, only=candidates.tolist()):
+        groups.setdefault(record.get("sha256") or "", []).append(str(inputs.files[i]))
+    return [files for sha, files in groups.items() if sha and len(files) > 1]
+
+
+def summarise(inputs: Inputs, out: Path, spec: Spec | None) -> dict:
     """Counts, statistics, stand-out units, identical files and per-unit notes of a batch
     (what ``results.json`` holds besides the rows), read from the records one by one.
 
@@ -183,21 +199,22 @@ def summarise(record_paths: list[Path], spec: Spec | None, *, skipped: list | No
         ``fitkit_version``, ``rule``, ``spec``, ``counts``, ``statistics``,
         ``stand_out_rule``, ``stand_out``, ``same_bytes`` (lists of files with identical
         bytes), ``marks`` (units with fit warnings, with doubtful values, identical
-        files), ``notes`` (per unit: file, kind, text), ``skipped``.
+        files), ``notes`` (per unit: file, kind, text), ``skipped`` (folders not searched).
     """
-    table = np.full((len(record_paths), len(_NAMES)), np.nan)
-    files, counts, notes, by_sha = [], {}, [], {}
-    for i, (record, name) in enumerate(_records(record_paths)):
+    n = len(inputs.files)
+    table = np.full((n, len(_NAMES)), np.nan)
+    prefix, known = np.zeros(n, dtype=np.uint64), np.zeros(n, dtype=bool)
+    counts, notes = {}, []
+    for i, record, name in _records(inputs, out):
         row = make_row(record, spec, name)
-        files.append(row["file"])
         table[i] = [_number(row[q]) for q in _NAMES]
         word = row["verdict"] or row["status"]
         counts[word] = counts.get(word, 0) + 1
         notes += _notes(row, record)
         if row["sha256"]:
-            by_sha.setdefault(row["sha256"], []).append(i)
-    stats, stand_out = _statistics(table, files)
-    same_bytes = [[files[i] for i in group] for group in by_sha.values() if len(group) > 1]
+            prefix[i], known[i] = int(row["sha256"][:16], 16), True
+    stats, stand_out = _statistics(table, [str(f) for f in inputs.files])
+    same_bytes = _same_bytes(inputs, out, prefix, known)
     marks = {
         "fit warnings": sum(1 for n in notes if n["kind"] == "warnings"),
         "doubtful values": sum(1 for n in notes if n["kind"] == "doubtful"),
@@ -214,11 +231,11 @@ def summarise(record_paths: list[Path], spec: Spec | None, *, skipped: list | No
         "stand_out": stand_out,
         "same_bytes": same_bytes,
         "notes": notes,
-        "skipped": list(skipped or []),
+        "skipped": list(inputs.skipped),
     }
 
 
-def rows(record_paths: list[Path], spec: Spec | None, summary: dict) -> Iterator[dict]:
+def rows(inputs: Inputs, out: Path, spec: Spec | None, summary: dict) -> Iterator[dict]:
     """The rows of a batch, one record read at a time, with stand-out values and
     identical files filled in from the summary."""
     stand_out, same = {}, {}
@@ -227,7 +244,7 @@ def rows(record_paths: list[Path], spec: Spec | None, summary: dict) -> Iterator
     for group in summary["same_bytes"]:
         for file in group:
             same[file] = [f for f in group if f != file]
-    for record, name in _records(record_paths):
+    for _, record, name in _records(inputs, out):
         row = make_row(record, spec, name)
         row["stands_out"] = ", ".join(stand_out.get(row["file"], []))
         row["same_bytes_as"] = "; ".join(same.get(row["file"], []))
@@ -269,7 +286,7 @@ def readable(row: dict) -> dict:
 
 
 def write_results(
-    out: Path, record_paths: list[Path], spec: Spec | None, summary: dict, settings: dict
+    out: Path, inputs: Inputs, spec: Spec | None, summary: dict, settings: dict
 ) -> list[Path]:
     """Write ``results.csv``, ``results-readable.csv`` and ``results.json`` in ``out``,
     each atomically, streaming the rows.
@@ -291,7 +308,7 @@ def write_results(
             csv.writer(people, lineterminator="\n"),
         )
         js.write(head[: head.rindex("\n}")] + ',\n  "rows": [')
-        for i, row in enumerate(rows(record_paths, spec, summary)):
+        for i, row in enumerate(rows(inputs, out, spec, summary)):
             nice = readable(row)
             if i == 0:
                 si_csv.writerow(list(row))

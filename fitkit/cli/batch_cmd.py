@@ -97,22 +97,20 @@ def batch_command(
         check_output(out, resume=resume, force=force, names=names)
         with Stop() as stop, progress(len(found.files)) as tick:
             try:
-                records = run_batch(
-                    found, settings, out, workers=workers, resume=resume, on_done=tick
-                )
+                run_batch(found, settings, out, workers=workers, resume=resume, on_done=tick)
             except KeyboardInterrupt:
                 click.echo(
                     f"\nstopped; finished fits are kept in {out}; run again with --resume",
                     err=True,
                 )
                 sys.exit(128 + stop.signum)
-        summary = summarise(records, spec, skipped=found.skipped)
-        written = write_results(out, records, spec, summary, settings)
+        summary = summarise(found, out, spec)
+        written = write_results(out, found, spec, summary, settings)
         if with_report:
             from fitkit.report.html import write_batch_report
 
             written.append(write_batch_report(out, load_results(out), settings))
-    for line in summary_lines(summary, len(records)):
+    for line in summary_lines(summary, len(found.files)):
         click.echo(line)
     for path in written:
         click.echo(f"  written  {path}")
