@@ -78,10 +78,12 @@ def batch_command(
     """Fit every sweep in INPUTS (folders, files or quoted globs) and judge each unit.
 
     A setup file beside each sweep (fitkit-setup.toml) is used unless --setup is given.
-    Writes results.csv and results.json to --out: one row per input with values,
-    uncertainties and verdicts (pass, fail, undecided), the reason for any file that could
-    not be read or fitted, batch statistics and the units that stand out. Exit status 0
-    when every file was processed (whatever the verdicts), 2 on bad inputs.
+    Writes results.csv (SI), results-readable.csv (with units) and results.json to --out:
+    one row per input path with values, uncertainties and verdicts (pass, fail,
+    undecided), the reason for any file that could not be read or fitted, fit warnings,
+    doubtful values, identical files, batch statistics and the units that stand out. One
+    batch at a time per --out. Exit status 0 when every file was processed (whatever the
+    verdicts), 2 on bad inputs or an output folder that is in use or cannot be written.
     """
     if resume and force:
         raise InputError(
