@@ -78,7 +78,11 @@ def find_inputs(items: Iterable[str], *, skip: Path | None = None) -> Inputs:
             found.append(Path(item))
     if skip_real is not None:
         found = [f for f in found if not _inside(os.path.realpath(f), skip_real)]
-    unique = list({os.path.abspath(f): f for f in reversed(found)}.values())[::-1]
+    unique, seen = [], set()
+    for f in found:  # each path once, where it first appears
+        if os.path.abspath(f) not in seen:
+            seen.add(os.path.abspath(f))
+            unique.append(f)
     if not unique:
         raise InputError(
             f"no sweep files matched {' '.join(items)}",

@@ -162,3 +162,11 @@ def test_resume_and_force_together_are_refused(tmp_path):
     result = run("batch", KITS, "--out", tmp_path / "o", "--resume", "--force")
     assert result.exit_code == 2 and "--resume" in result.output and "fix:" in result.output
     assert not (tmp_path / "o").exists()
+
+
+def test_an_input_named_twice_is_one_row_in_first_seen_order(tmp_path):
+    out = tmp_path / "out"
+    again = f"{KITS}/../kits/kit-01.csv"  # the same file by another spelling
+    result = run("batch", KITS / "kit-02.csv", KITS / "kit-01.csv", again, "--out", out)
+    assert result.exit_code == 0, result.output
+    assert [Path(r["file"]).name for r in table(out)] == ["kit-02.csv", "kit-01.csv"]

@@ -97,21 +97,22 @@ def batch_command(
     settings = fit_settings(opts, noise, model)
     with output_folder(out, command_line()):
         check_output(out, resume=resume, force=force, names=names)
-        with Stop() as stop, progress(len(found.files)) as tick:
+        with Stop() as stop:
             try:
-                run_batch(found, settings, out, workers=workers, resume=resume, on_done=tick)
+                with progress(len(found.files)) as tick:
+                    run_batch(found, settings, out, workers=workers, resume=resume, on_done=tick)
+                summary = summarise(found, out, spec)
+                written = write_results(out, found, spec, summary, settings)
+                if with_report:
+                    from fitkit.report.html import write_batch_report
+
+                    written.append(write_batch_report(out, load_results(out), settings))
             except KeyboardInterrupt:
                 click.echo(
                     f"\nstopped; finished fits are kept in {out}; run again with --resume",
                     err=True,
                 )
                 sys.exit(128 + stop.signum)
-        summary = summarise(found, out, spec)
-        written = write_results(out, found, spec, summary, settings)
-        if with_report:
-            from fitkit.report.html import write_batch_report
-
-            written.append(write_batch_report(out, load_results(out), settings))
     for line in summary_lines(summary, len(found.files)):
         click.echo(line)
     for path in written:
