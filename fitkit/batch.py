@@ -1,8 +1,8 @@
 """Many sweeps at once: fit every input on all cores and keep one record per input path.
 
 Every input gets a record, fitted or not, written atomically to ``OUT/fits/<name>.json``
-(the input's path relative to the batch root, made safe: :func:`record_name`) as soon as
-its fit finishes. A record holds the input's path, the SHA-256 of its bytes and a key of
+(the input's path relative to the batch root, made safe by
+:func:`fitkit.batch_inputs.record_name`) as soon as its fit finishes. A record holds the input's path, the SHA-256 of its bytes and a key of
 the settings (setup file bytes and options); an interrupted batch resumed with the same
 inputs reuses a record only when all three still match, so every input path is fitted
 once and rows never trade places, whatever the resume history, and files with identical
@@ -55,10 +55,12 @@ __all__ = [
     "RESULTS_CSV",
     "RESULTS_JSON",
     "RESULTS_READABLE",
+    "Stop",
     "file_sha256",
     "fit_one",
     "fit_with",
     "load_record",
+    "quiet_c_output",
     "record_file",
     "run_batch",
     "settings_key",
