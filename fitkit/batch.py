@@ -2,11 +2,11 @@
 
 Every input gets a record, fitted or not, written atomically to ``OUT/fits/<name>.json``
 (the input's path relative to the batch root, made safe by
-:func:`fitkit.batch_inputs.record_name`) as soon as its fit finishes. A record holds the input's path, the SHA-256 of its bytes and a key of
-the settings (setup file bytes and options); an interrupted batch resumed with the same
-inputs reuses a record only when all three still match, so every input path is fitted
-once and rows never trade places, whatever the resume history, and files with identical
-bytes each keep their own record.
+:func:`fitkit.batch_inputs.record_name`) as soon as its fit finishes. A record holds the
+input's path, the SHA-256 of its bytes and a key of the settings (setup file bytes and
+options); an interrupted batch resumed with the same inputs reuses a record only when all
+three still match, so every input path is fitted once and rows never trade places,
+whatever the resume history, and files with identical bytes each keep their own record.
 
 Worker processes print nothing (C libraries' messages go to the null device), ignore
 Ctrl-C (the main process stops them after their current fit) and end themselves when the
