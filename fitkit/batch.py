@@ -1,98 +1,81 @@
-"""Many sweeps at once: find the files, fit them on all cores, keep every result, judge.
+"""Many sweeps at once: fit every input on all cores and keep one record per input path.
 
-Every input gets a record, fitted or not; a record is written atomically to
-``OUT/fits/<key>.json`` as soon as its fit finishes, so an interrupted batch resumes
-without refitting finished files. The key is the SHA-256 of the input file's bytes
-together with the setup file's bytes and the fit settings: a changed file or setting is
-fitted again, an unchanged one is not.
+Every input gets a record, fitted or not, written atomically to ``OUT/fits/<name>.json``
+(the input's path relative to the batch root, made safe by
+:func:`fitkit.batch_inputs.record_name`) as soon as its fit finishes. A record holds the
+input's path, the SHA-256 of its bytes and a key of the settings (setup file bytes and
+options); an interrupted batch resumed with the same inputs reuses a record only when all
+three still match, so every input path is fitted once and rows never trade places,
+whatever the resume history, and files with identical bytes each keep their own record.
 
-The results (``results.csv``, ``results.json``) are one row per input with values,
-uncertainties, verdicts against a specification, and the reason for any file that could
-not be read or fitted; plus batch statistics and the units that stand out.
+Worker processes print nothing (C libraries' messages go to the null device), ignore
+Ctrl-C (the main process stops them after their current fit) and end themselves when the
+main process ends, however it ends.
+
+The results (rows, statistics, verdicts, files) are made by :mod:`fitkit.batch_results`.
 """
 
 from __future__ import annotations
 
-import csv
-import glob
+import contextlib
+import ctypes
+import errno
 import hashlib
-import io
+import itertools
 import json
 import multiprocessing
 import os
-from collections.abc import Callable, Iterable
-from concurrent.futures import ProcessPoolExecutor, as_completed
+import select
+import signal
+import sys
+import threading
+import time
+from collections.abc import Callable, Iterator
+from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
+from concurrent.futures.process import BrokenProcessPool
+from multiprocessing import forkserver, resource_tracker
 from pathlib import Path
 
-import numpy as np
-
+from fitkit.batch_inputs import Inputs, file_sha256, unreadable_reason
+from fitkit.batch_output import (
+    FAILED,
+    FITTED,
+    RESULTS_CSV,
+    RESULTS_JSON,
+    RESULTS_READABLE,
+    load_record,
+    record_file,
+    write_atomic,
+)
 from fitkit.errors import FitkitError, InputError
-from fitkit.result import QUANTITIES
-from fitkit.spec import Spec, judge
-from fitkit.version import __version__
 
-#: file name endings a folder is searched for
-SWEEP_SUFFIXES = (".csv", ".tsv", ".txt", ".dat", ".s1p", ".s2p", ".ts")
-RECORDS_DIR = "fits"
-FITTED, FAILED = "fitted", "failed"
-
-
-def find_inputs(items: Iterable[str], *, skip: Path | None = None) -> list[Path]:
-    """The sweep files named by folders, files or glob patterns, in a stable order.
-
-    Parameters
-    ----------
-    items : iterable of str
-        Folders (searched below for files ending in one of ``SWEEP_SUFFIXES``), files
-        (kept even when missing, so their row can say so), or glob patterns
-        (``*``, ``?``, ``[``; ``**`` reaches into subfolders).
-    skip : Path, optional
-        A folder whose files are never inputs (the output folder).
-
-    Raises
-    ------
-    InputError
-        When nothing matches.
-    """
-    found: list[Path] = []
-    for item in items:
-        p = Path(item)
-        if p.is_dir():
-            found += sorted(f for f in p.rglob("*") if f.suffix.lower() in SWEEP_SUFFIXES)
-        elif any(ch in item for ch in "*?["):
-            found += sorted(Path(f) for f in glob.glob(item, recursive=True) if Path(f).is_file())
-        else:
-            found.append(p)
-    if skip is not None:
-        skip = skip.resolve()
-        found = [f for f in found if skip not in f.resolve().parents]
-    unique = list(dict.fromkeys(found))
-    if not unique:
-        raise InputError(
-            f"no sweep files matched {' '.join(items)}",
-            remedy=f"give folders holding files ending in {', '.join(SWEEP_SUFFIXES)}, "
-            "files, or a quoted glob such as 'kits/*.csv'",
-        )
-    return unique
+__all__ = [
+    "FAILED",
+    "FITTED",
+    "RESULTS_CSV",
+    "RESULTS_JSON",
+    "RESULTS_READABLE",
+    "Stop",
+    "file_sha256",
+    "fit_one",
+    "fit_with",
+    "load_record",
+    "quiet_c_output",
+    "record_file",
+    "run_batch",
+    "settings_key",
+]
 
 
-def file_sha256(path: Path) -> str | None:
-    """The SHA-256 of a file's bytes, or None when it cannot be read."""
-    try:
-        return hashlib.sha256(path.read_bytes()).hexdigest()
-    except OSError:
-        return None
-
-
-def record_key(path: Path, settings: dict) -> tuple[str | None, str]:
-    """(SHA-256 of the file or None when unreadable, the record key for these settings)."""
+def settings_key(path: Path, settings: dict) -> str:
+    """A key of everything besides the sweep's own bytes that decides its fit: the
+    settings and the bytes of the setup file used."""
     from fitkit.bench_file import find_bench_file
 
-    sha = file_sha256(path)
     bench = find_bench_file(path, settings.get("setup_path"))
     bench_sha = file_sha256(bench) if bench else None
-    text = json.dumps([sha or str(path), bench_sha, settings], sort_keys=True, default=str)
-    return sha, hashlib.sha256(text.encode()).hexdigest()[:32]
+    text = json.dumps([bench_sha, settings], sort_keys=True, default=str)
+    return hashlib.sha256(text.encode()).hexdigest()[:32]
 
 
 def fit_with(path: str | Path, settings: dict):
@@ -109,264 +92,271 @@ def fit_with(path: str | Path, settings: dict):
     )
 
 
-def fit_one(path: str, sha: str | None, key: str, settings: dict, records_dir: str) -> dict:
-    """Fit one file and write its record; never raises for a bad file (the record says why).
-
-    This is what each worker process runs.
-    """
-    record = {"file": path, "sha256": sha, "key": key, "setup_file": None, "fit": None}
-    try:
-        fit, bench = fit_with(path, settings)
-        record.update(status=FITTED, reason="", fit=fit.to_dict())
-        record["setup_file"] = str(bench) if bench else None
-    except FitkitError as exc:
-        record.update(status=FAILED, reason=exc.user_text())
-    except Exception as exc:  # noqa: BLE001  a reader or fit bug must not stop the batch
-        reason = (
-            f"{path}: internal error {type(exc).__name__}: {exc}"
-            "\n  fix: this is a fitkit bug; please report it with the file"
-        )
-        record.update(status=FAILED, reason=reason)
-    write_atomic(Path(records_dir) / f"{key}.json", json.dumps(record, allow_nan=False))
-    return record
+def _new_record(path: str, sha: str | None, key: str) -> dict:
+    return {
+        "file": path,
+        "abs_path": os.path.abspath(path),
+        "sha256": sha,
+        "settings_key": key,
+        "status": FAILED,
+        "reason": "",
+        "setup_file": None,
+        "fit": None,
+        "doubtful": {},
+        "outside": None,
+    }
 
 
-def write_atomic(path: Path, text: str) -> None:
-    """Write text to a temporary file beside ``path``, then rename it into place."""
-    tmp = path.with_name(f".{path.name}.{os.getpid()}.tmp")
-    tmp.write_text(text, encoding="utf-8")
-    os.replace(tmp, path)
-
-
-def check_output(out: Path, *, resume: bool, force: bool, names: Iterable[str]) -> None:
-    """Refuse to mix with or replace earlier results unless asked.
+def fit_one(path: str, sha: str | None, key: str, settings: dict, record_path: str) -> str:
+    """Fit one file and write its record; never raises for a bad file (the record says
+    why). Returns the status. This is what each worker process runs.
 
     Raises
     ------
     InputError
-        When results or records exist and neither ``resume`` nor ``force`` is set.
+        Only when the record cannot be written (a full disk, a read-only folder).
     """
-    if resume or force:
-        return
-    taken = [n for n in names if (out / n).exists()]
-    records = out / RECORDS_DIR
-    if taken or (records.is_dir() and any(records.iterdir())):
-        what = ", ".join(taken) if taken else f"fit records in {RECORDS_DIR}/"
-        raise InputError(
-            f"the output folder holds an earlier batch ({what})",
-            remedy="add --resume to continue it without refitting finished files, --force "
-            "to fit everything again and replace the results, or choose another --out",
-            path=out,
-        )
-
-
-def _load_record(path: Path) -> dict | None:
+    record = _new_record(path, sha, key)
     try:
-        record = json.loads(path.read_text(encoding="utf-8"))
-    except (OSError, ValueError):
-        return None  # missing or half-written: fit again
-    return record if record.get("status") in (FITTED, FAILED) else None
+        with quiet_c_output():
+            fit, bench = fit_with(path, settings)
+        record.update(status=FITTED, fit=fit.to_dict())
+        record["setup_file"] = str(bench) if bench else None
+        record["doubtful"] = {
+            name: getattr(q, "doubtful", "")
+            for name, q in fit.quantities.items()
+            if getattr(q, "doubtful", "")
+        }
+        text = json.dumps(record, allow_nan=False)
+    except FitkitError as exc:
+        record.update(reason=exc.user_text(), outside=_outside(exc))
+        text = json.dumps(record, allow_nan=False)
+    except Exception as exc:  # noqa: BLE001  a reader or fit bug must not stop the batch
+        record.update(status=FAILED, fit=None, doubtful={})
+        record["reason"] = (
+            f"{path}: internal error {type(exc).__name__}: {exc}"
+            "\n  fix: this is a fitkit bug; please report it with the file"
+        )
+        text = json.dumps(record, allow_nan=False)
+    write_atomic(Path(record_path), text)
+    return record["status"]
+
+
+def _outside(exc: FitkitError) -> dict | None:
+    """Where a resonance outside the sweep lies, when the fit said so."""
+    side = getattr(exc, "outside", None)
+    if side is None:
+        return None
+    return {"side": side, "bound_hz": getattr(exc, "bound_hz", None)}
+
+
+def _unreadable_record(path: Path, key: str, record_path: Path) -> str:
+    """The record of an input that cannot be read (a pipe, a folder, a loop...)."""
+    what, fix = unreadable_reason(path) or ("cannot be read", "check the file")
+    record = _new_record(str(path), None, key)
+    record["reason"] = InputError(what, remedy=fix, path=path).user_text()
+    write_atomic(record_path, json.dumps(record, allow_nan=False))
+    return FAILED
+
+
+def _still_valid(record: dict | None, path: Path, sha: str | None, key: str) -> bool:
+    return (
+        record is not None
+        and sha is not None
+        and record.get("abs_path") == os.path.abspath(path)
+        and record.get("sha256") == sha
+        and record.get("settings_key") == key
+    )
+
+
+@contextlib.contextmanager
+def quiet_c_output() -> Iterator[None]:
+    """Send whatever is written to file descriptors 1 and 2 (numeric libraries' C
+    messages) to the null device for the block."""
+    try:
+        sys.stdout.flush()
+        sys.stderr.flush()
+        saved = [os.dup(1), os.dup(2)]
+    except (OSError, ValueError, AttributeError):
+        yield  # no descriptors to guard (closed streams): nothing can reach the user
+        return
+    null = os.open(os.devnull, os.O_WRONLY)
+    try:
+        os.dup2(null, 1)
+        os.dup2(null, 2)
+        yield
+    finally:
+        _flush_c_streams()  # what C code buffered goes to the null device too
+        os.dup2(saved[0], 1)
+        os.dup2(saved[1], 2)
+        for fd in (*saved, null):
+            os.close(fd)
+
+
+def _flush_c_streams() -> None:
+    with contextlib.suppress(OSError, AttributeError, TypeError):
+        ctypes.CDLL(None).fflush(None)
+
+
+def _worker_start(main_pid: int) -> None:
+    """Worker set-up: Ctrl-C is the main process's to handle; end with the main process."""
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    threading.Thread(target=_exit_with, args=(main_pid,), daemon=True).start()
+
+
+def _exit_with(pid: int) -> None:
+    """Block until process ``pid`` ends, then end this process at once."""
+    try:
+        handle = os.pidfd_open(pid)
+    except OSError as exc:
+        if exc.errno == errno.ESRCH:
+            os._exit(1)
+        handle = None
+    except AttributeError:  # no pidfd on this platform: poll
+        handle = None
+    if handle is not None:
+        select.select([handle], [], [])
+    else:
+        while _alive(pid):
+            time.sleep(0.5)
+    os._exit(1)
+
+
+def _alive(pid: int) -> bool:
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except PermissionError:
+        return True
+    return True
 
 
 def _pool(workers: int) -> ProcessPoolExecutor:
     # forkserver: workers start from a clean, preloaded server (no fork of a threaded
-    # parent); spawn where the platform has no forkserver
+    # parent); spawn where the platform has no forkserver. The forkserver and the
+    # resource tracker end by themselves once every worker has ended.
     method = "forkserver" if "forkserver" in multiprocessing.get_all_start_methods() else "spawn"
     ctx = multiprocessing.get_context(method)
     if method == "forkserver":
         ctx.set_forkserver_preload(["fitkit.workflow", "fitkit.batch"])
-    return ProcessPoolExecutor(max_workers=workers, mp_context=ctx)
+    with quiet_c_output():  # the helper processes keep the null device as stdout/stderr
+        resource_tracker.ensure_running()
+        if method == "forkserver":
+            forkserver.ensure_running()
+    return ProcessPoolExecutor(
+        max_workers=workers, mp_context=ctx, initializer=_worker_start, initargs=(os.getpid(),)
+    )
 
 
 def run_batch(
-    files: list[Path],
+    inputs: Inputs,
     settings: dict,
     out: Path,
     *,
     workers: int = 0,
     resume: bool = False,
-    on_done: Callable[[dict], None] | None = None,
-) -> list[dict]:
-    """Fit every file, reusing finished records when resuming.
+    on_done: Callable[[str], None] | None = None,
+) -> None:
+    """Fit every input and write its record (:func:`record_file`), reusing still-valid
+    records when resuming. Inputs are hashed one by one while the workers fit, and at
+    most a few fits are in flight, so memory does not grow with the number of inputs.
 
     Parameters
     ----------
-    files : list of Path
-        The inputs (see :func:`find_inputs`).
+    inputs : Inputs
+        What :func:`fitkit.batch_inputs.find_inputs` found.
     settings : dict
-        ``setup_path``, ``overrides``, ``known``, ``noise`` as for
+        ``setup_path``, ``overrides``, ``known``, ``noise``, ``topology`` as for
         :func:`fitkit.workflow.fit_file`.
     out : Path
-        The output folder; records go to ``out/fits``.
+        The output folder (see :func:`fitkit.batch_output.output_folder`).
     workers : int
         Worker processes; 0 means one per core; 1 fits in this process.
     resume : bool
-        Reuse records of earlier runs with the same key.
+        Reuse records of earlier runs for the same path, bytes and settings.
     on_done : callable, optional
-        Called with each record as it finishes (for a progress bar).
+        Called with each input's status as it finishes (for a progress bar).
 
-    Returns
-    -------
-    list of dict
-        One record per input, in the order of ``files``.
+    Raises
+    ------
+    InputError
+        When a record cannot be written; finished records are kept.
+    FitkitError
+        When a worker process dies from outside.
     """
-    records_dir = out / RECORDS_DIR
-    records_dir.mkdir(parents=True, exist_ok=True)
-    done: dict[int, dict] = {}
-    todo = []
-    for i, path in enumerate(files):
-        sha, key = record_key(path, settings)
-        old = _load_record(records_dir / f"{key}.json") if resume else None
-        if old is not None:
-            done[i] = old
-            if on_done:
-                on_done(old)
-        else:
-            todo.append((i, (str(path), sha, key, settings, str(records_dir))))
+    done = on_done or (lambda status: None)
+    jobs = _jobs(inputs, settings, out, resume, done)
+    first = list(itertools.islice(jobs, 2))
     workers = workers or os.cpu_count() or 1
-    if workers == 1 or len(todo) <= 1:
-        for i, args in todo:
-            done[i] = fit_one(*args)
-            if on_done:
-                on_done(done[i])
+    if workers == 1 or len(first) < 2:  # no pool to start for a single fit
+        for args in itertools.chain(first, jobs):
+            done(fit_one(*args))
     else:
-        with _pool(min(workers, len(todo))) as pool:
-            futures = {pool.submit(fit_one, *args): i for i, args in todo}
-            try:
-                for future in as_completed(futures):
-                    done[futures[future]] = future.result()
-                    if on_done:
-                        on_done(done[futures[future]])
-            except BaseException:
-                pool.shutdown(wait=True, cancel_futures=True)
-                raise
-    return [done[i] for i in range(len(files))]
+        _fit_in_pool(itertools.chain(first, jobs), workers, done)
 
 
-def _values(fit: dict | None) -> dict:
-    """``{quantity: (value, stderr)}`` from a saved fit dict (``None`` values if absent)."""
-    if not fit:
-        return {}
-    entries = {**fit["values"], **fit["derived"]}
-    return {q: (e["value"], e["stderr"]) for q, e in entries.items()}
+def _jobs(
+    inputs: Inputs, settings: dict, out: Path, resume: bool, done: Callable[[str], None]
+) -> Iterator[tuple]:
+    """The fits to do, as arguments of :func:`fit_one`; an input whose record is still
+    valid (when resuming) or that cannot be read is dealt with here."""
+    for path in inputs.files:
+        record_path = record_file(out, path, inputs.root)
+        key = settings_key(path, settings)
+        sha = file_sha256(path)
+        if resume and _still_valid(load_record(record_path), path, sha, key):
+            done("reused")
+        elif sha is None:
+            done(_unreadable_record(path, key, record_path))
+        else:
+            yield str(path), sha, key, settings, str(record_path)
 
 
-def _row(record: dict, spec: Spec | None) -> dict:
-    fit = record.get("fit")
-    values = _values(fit)
-    row = {k: record.get(k) for k in ("file", "sha256", "status")}
-    row["verdict"] = "not fitted" if fit is None else ""
-    # one line per cell, so the CSV stays one row per file for line-based tools
-    row["reason"] = " ".join(record.get("reason", "").split())
-    for q in QUANTITIES:
-        row[q], row[f"{q}_u"] = values.get(q, (None, None))
-    if spec is not None:
-        verdicts = judge(values, spec) if fit is not None else None
-        for lim in spec.limits:
-            row[f"{lim.name}_verdict"] = verdicts.values[lim.name].text() if verdicts else ""
-        if verdicts:
-            row["verdict"] = verdicts.overall
-    row["stands_out"] = ""
-    row["warnings"] = "; ".join(fit["fit"]["warnings"]) if fit else ""
-    row["setup_file"] = record.get("setup_file")
-    return row
+def _fit_in_pool(jobs: Iterator[tuple], workers: int, done: Callable[[str], None]) -> None:
+    """Fit in worker processes, a few jobs in flight at a time."""
+    with _pool(workers) as pool:
+        running = set()
+        try:
+            for args in jobs:
+                running.add(pool.submit(fit_one, *args))
+                if len(running) >= 2 * workers:
+                    break
+            while running:
+                finished, running = wait(running, return_when=FIRST_COMPLETED)
+                for future in finished:
+                    done(future.result())
+                    for args in jobs:
+                        running.add(pool.submit(fit_one, *args))
+                        break
+        except BrokenProcessPool:
+            raise FitkitError(
+                "a worker process ended unexpectedly (stopped from outside, or out of memory)",
+                remedy="run again with --resume: finished fits are kept",
+            ) from None
+        except BaseException:
+            pool.shutdown(wait=True, cancel_futures=True)
+            raise
 
 
-#: Iglewicz & Hoaglin (1993), "How to Detect and Handle Outliers", modified z-score
-#: M = 0.6745 (x - median) / MAD, flag |M| > 3.5 (from memory)
-STAND_OUT_LIMIT = 3.5
-STAND_OUT_MIN_UNITS = 5
-STAND_OUT_RULE = (
-    f"modified z-score |0.6745 (x - median) / MAD| > {STAND_OUT_LIMIT} (Iglewicz and Hoaglin, "
-    f"1993, from memory), for values determined in at least {STAND_OUT_MIN_UNITS} units"
-)
+class Stop:
+    """SIGTERM (and SIGHUP) treated like Ctrl-C for the block: the main process stops its
+    workers after their current fit; ``signum`` says which signal came."""
 
+    def __init__(self) -> None:
+        self.signum = signal.SIGINT
+        self._saved: dict = {}
 
-def statistics(rows: list[dict]) -> tuple[dict, list[dict]]:
-    """Per value over the fitted units: count, mean, standard deviation, min, max, median,
-    MAD; and the units whose value stands out (:data:`STAND_OUT_RULE`).
-    """
-    stats, stand_out = {}, []
-    for q in QUANTITIES:
-        pairs = [(r["file"], r[q]) for r in rows if r[q] is not None]
-        if not pairs:
-            continue
-        x = np.array([v for _, v in pairs], dtype=float)
-        median = float(np.median(x))
-        mad = float(np.median(np.abs(x - median)))
-        stats[q] = {
-            "n": int(x.size),
-            "mean": float(x.mean()),
-            "std": float(x.std(ddof=1)) if x.size > 1 else None,
-            "min": float(x.min()),
-            "max": float(x.max()),
-            "median": median,
-            "mad": mad,
-        }
-        if x.size < STAND_OUT_MIN_UNITS or mad == 0:
-            continue
-        for (file, value), z in zip(pairs, 0.6745 * (x - median) / mad):
-            if abs(z) > STAND_OUT_LIMIT:
-                stand_out.append({"file": file, "value": q, "x": value, "z": round(float(z), 2)})
-    return stats, stand_out
+    def _handle(self, signum, frame) -> None:
+        self.signum = signum
+        raise KeyboardInterrupt
 
+    def __enter__(self) -> Stop:
+        if threading.current_thread() is threading.main_thread():
+            for sig in (signal.SIGTERM, signal.SIGHUP):
+                self._saved[sig] = signal.signal(sig, self._handle)
+        return self
 
-def summarise(records: list[dict], spec: Spec | None) -> dict:
-    """Rows, counts, statistics and stand-out units of a batch (what the results hold)."""
-    rows = [_row(r, spec) for r in records]
-    stats, stand_out = statistics(rows)
-    by_file = {}
-    for item in stand_out:
-        by_file.setdefault(item["file"], []).append(f"{item['value']} (z = {item['z']:+.1f})")
-    for row in rows:
-        row["stands_out"] = ", ".join(by_file.get(row["file"], []))
-    counts = {}
-    for row in rows:
-        word = row["verdict"] or row["status"]
-        counts[word] = counts.get(word, 0) + 1
-    return {
-        "fitkit_version": __version__,
-        "rule": spec.rule_text() if spec else "no specification given",
-        "spec": spec.source if spec else None,
-        "counts": counts,
-        "statistics": stats,
-        "stand_out_rule": STAND_OUT_RULE,
-        "stand_out": stand_out,
-        "rows": rows,
-    }
-
-
-RESULTS_CSV, RESULTS_JSON = "results.csv", "results.json"
-_FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
-
-
-def safe_cell(value):
-    """A CSV cell that a spreadsheet will not run as a formula.
-
-    Text starting with = + - @ tab or carriage return gets a leading ``'`` (OWASP,
-    "CSV Injection", from memory); numbers and empty cells pass unchanged.
-
-    Examples
-    --------
-    >>> safe_cell("=HYPERLINK(1)"), safe_cell(-1.5), safe_cell(None)
-    ("'=HYPERLINK(1)", -1.5, '')
-    """
-    if value is None:
-        return ""
-    if isinstance(value, str) and value.startswith(_FORMULA_STARTS):
-        return "'" + value
-    return value
-
-
-def write_results(out: Path, summary: dict, settings: dict) -> list[Path]:
-    """Write ``results.csv`` and ``results.json`` in ``out`` (each atomically)."""
-    rows = summary["rows"]
-    buffer = io.StringIO()
-    writer = csv.writer(buffer, lineterminator="\n")
-    writer.writerow(list(rows[0]))
-    for row in rows:
-        writer.writerow([safe_cell(v) for v in row.values()])
-    write_atomic(out / RESULTS_CSV, buffer.getvalue())
-    data = {**summary, "settings": settings}
-    write_atomic(out / RESULTS_JSON, json.dumps(data, indent=2, allow_nan=False, default=str))
-    return [out / RESULTS_CSV, out / RESULTS_JSON]
+    def __exit__(self, *exc) -> None:
+        for sig, handler in self._saved.items():
+            signal.signal(sig, handler)

@@ -11,7 +11,9 @@ import pytest
 from click.testing import CliRunner
 
 import fitkit.batch as batch
+import fitkit.batch_results as results
 from fitkit.cli import main
+from fitkit.result import QUANTITIES
 
 KITS = Path(__file__).resolve().parent.parent / "sample_sweeps" / "kits"
 SPEC = KITS / "spec.toml"
@@ -72,9 +74,9 @@ def test_modified_z_score_worked_by_hand():
     # M(2.0) = 0.6745 * 1.0 / 0.01 = 67.45 > 3.5; M(1.02) = 1.35 is not flagged
     # (Iglewicz & Hoaglin 1993, from memory)
     xs = [1.0, 1.01, 0.99, 1.02, 0.98, 1.0, 2.0]
-    empty = {q: None for q in batch.QUANTITIES}
+    empty = {q: None for q in QUANTITIES}
     rows = [{"file": f"u{i}", **empty, "L": x} for i, x in enumerate(xs)]
-    _, stand_out = batch.statistics(rows)
+    _, stand_out = results.statistics(rows)
     assert [(s["file"], s["value"]) for s in stand_out] == [("u6", "L")]
     assert stand_out[0]["z"] == pytest.approx(67.45, abs=0.01)
 
@@ -144,8 +146,8 @@ def test_no_cell_from_a_file_starts_a_formula(tmp_path, monkeypatch):
 
 @pytest.mark.parametrize("start", ["=", "+", "-", "@", "\t", "\r"])
 def test_safe_cell_prefixes_every_formula_start(start):
-    assert batch.safe_cell(start + "x") == "'" + start + "x"
-    assert batch.safe_cell("x" + start) == "x" + start
+    assert results.safe_cell(start + "x") == "'" + start + "x"
+    assert results.safe_cell("x" + start) == "x" + start
 
 
 def test_no_files_and_bad_spec_exit_2(tmp_path):

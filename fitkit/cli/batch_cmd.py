@@ -2,23 +2,27 @@
 
 from __future__ import annotations
 
+import contextlib
 import sys
+from collections.abc import Callable, Iterator
 from pathlib import Path
 
 import click
 
-from fitkit.batch import (
-    FAILED,
+from fitkit.batch import Stop, run_batch
+from fitkit.batch_inputs import find_inputs
+from fitkit.batch_output import (
     RESULTS_CSV,
     RESULTS_JSON,
+    RESULTS_READABLE,
     check_output,
-    find_inputs,
-    run_batch,
-    summarise,
-    write_results,
+    command_line,
+    output_folder,
 )
+from fitkit.batch_results import load_results, summarise, write_results
 from fitkit.cli.base import main, reports_errors
 from fitkit.cli.fit_cmd import bench_options, model_option, overrides_from_options
+from fitkit.errors import InputError
 from fitkit.result import QUANTITIES
 from fitkit.spec import RULES, load_spec
 
@@ -74,42 +78,56 @@ def batch_command(
     """Fit every sweep in INPUTS (folders, files or quoted globs) and judge each unit.
 
     A setup file beside each sweep (fitkit-setup.toml) is used unless --setup is given.
-    Writes results.csv and results.json to --out: one row per input with values,
-    uncertainties and verdicts (pass, fail, undecided), the reason for any file that could
-    not be read or fitted, batch statistics and the units that stand out. Exit status 0
-    when every file was processed (whatever the verdicts), 2 on bad inputs.
+    Writes results.csv (SI), results-readable.csv (with units) and results.json to --out:
+    one row per input path with values, uncertainties and verdicts (pass, fail,
+    undecided), the reason for any file that could not be read or fitted, fit warnings,
+    doubtful values, identical files, batch statistics and the units that stand out. One
+    batch at a time per --out. Exit status 0 when every file was processed (whatever the
+    verdicts), 2 on bad inputs or an output folder that is in use or cannot be written.
     """
+    if resume and force:
+        raise InputError(
+            "--resume keeps finished fits and --force fits everything again",
+            remedy="give one of --resume and --force",
+        )
     out = Path(out_dir)
     spec = load_spec(spec_file).with_rule(rule, coverage) if spec_file else None
-    files = find_inputs(inputs, skip=out)
-    names = (RESULTS_CSV, RESULTS_JSON) + (("report.html",) if with_report else ())
-    check_output(out, resume=resume, force=force, names=names)
+    found = find_inputs(inputs, skip=out)
+    names = (RESULTS_CSV, RESULTS_READABLE, RESULTS_JSON) + (("report.html",) * with_report)
     settings = fit_settings(opts, noise, model)
-    with click.progressbar(length=len(files), label="fitting", file=sys.stderr) as bar:
-        try:
-            records = run_batch(
-                files,
-                settings,
-                out,
-                workers=workers,
-                resume=resume,
-                on_done=lambda r: bar.update(1),
-            )
-        except KeyboardInterrupt:
-            click.echo(
-                f"\ninterrupted; finished fits are kept in {out}; run again with --resume", err=True
-            )
-            sys.exit(130)
-    summary = summarise(records, spec)
-    written = write_results(out, summary, settings)
-    if with_report:
-        from fitkit.report.batch_page import write_batch_report
+    with output_folder(out, command_line()):
+        check_output(out, resume=resume, force=force, names=names)
+        with Stop() as stop:
+            try:
+                with progress(len(found.files)) as tick:
+                    run_batch(found, settings, out, workers=workers, resume=resume, on_done=tick)
+                summary = summarise(found, out, spec)
+                written = write_results(out, found, spec, summary, settings)
+                if with_report:
+                    from fitkit.report.batch_page import write_batch_report
 
-        written.append(write_batch_report(out, summary, settings, spec))
-    for line in summary_lines(summary, records):
+                    results = load_results(out)
+                    written.append(write_batch_report(out, results, settings, spec))
+            except KeyboardInterrupt:
+                click.echo(
+                    f"\nstopped; finished fits are kept in {out}; run again with --resume",
+                    err=True,
+                )
+                sys.exit(128 + stop.signum)
+    for line in summary_lines(summary, len(found.files)):
         click.echo(line)
     for path in written:
         click.echo(f"  written  {path}")
+
+
+@contextlib.contextmanager
+def progress(total: int) -> Iterator[Callable[[str], None]]:
+    """A progress bar on stderr when stderr is a terminal; otherwise nothing is drawn."""
+    if not sys.stderr.isatty():
+        yield lambda status: None
+        return
+    with click.progressbar(length=total, label="fitting", file=sys.stderr) as bar:
+        yield lambda status: bar.update(1)
 
 
 def fit_settings(opts: dict, noise: str | None, model: str = "auto") -> dict:
@@ -124,20 +142,40 @@ def fit_settings(opts: dict, noise: str | None, model: str = "auto") -> dict:
     }
 
 
-def summary_lines(summary: dict, records: list[dict]) -> list[str]:
-    """What ``fitkit batch`` prints: counts, the rule, failures and stand-out units."""
+#: how the summary labels each kind of note, in the order they are printed
+_NOTE_LABELS = {
+    "not fitted": "not fitted:",
+    "fail": "fail     ",
+    "undecided": "undecided",
+    "warnings": "warning  ",
+    "doubtful": "doubtful ",
+}
+
+
+def shown(file: str) -> str:
+    """A file name fit for one line of output (a newline in it shows as ``\\n``)."""
+    return file if file.isprintable() else file.encode("unicode_escape").decode("ascii")
+
+
+def summary_lines(summary: dict, total: int) -> list[str]:
+    """What ``fitkit batch`` prints: counts, the rule, marks, then per unit what is not
+    a plain pass (not fitted, fail, undecided, fit warnings, doubtful values), identical
+    files, stand-out values and folders not searched."""
     counts = ", ".join(f"{n} {word}" for word, n in sorted(summary["counts"].items()))
-    lines = [f"{len(records)} file(s): {counts}", f"  rule     {summary['rule']}"]
-    for record in records:
-        if record["status"] == FAILED:
-            lines.append(f"  not fitted: {record['reason'].splitlines()[0]}")
-    for row in summary["rows"]:
-        if row["verdict"] in ("fail", "undecided"):
-            why = [
-                f"{k[:-8]} {v}" for k, v in row.items() if k.endswith("_verdict") and v != "pass"
-            ]
-            lines.append(f"  {row['verdict']:<9} {row['file']}: {'; '.join(why)}")
+    lines = [f"{total} file(s): {counts}", f"  rule     {summary['rule']}"]
+    marks = [f"{n} with {what}" for what, n in summary["marks"].items() if n]
+    if marks:
+        lines.append(f"  marks    {', '.join(marks)}")
+    for kind, label in _NOTE_LABELS.items():
+        for note in summary["notes"]:
+            if note["kind"] == kind:
+                lines.append(f"  {label} {shown(note['file'])}: {note['text']}")
+    for group in summary["same_bytes"]:
+        names = ", ".join(shown(f) for f in group)
+        lines.append(f"  same bytes: {names} (identical files; each fitted and listed)")
     for item in summary["stand_out"]:
         label = QUANTITIES.get(item["value"], (None, item["value"]))[1]
-        lines.append(f"  stands out: {item['file']}: {label} (z = {item['z']:+.1f})")
+        lines.append(f"  stands out: {shown(item['file'])}: {label} (z = {item['z']:+.1f})")
+    for line in summary["skipped"]:
+        lines.append(f"  skipped  {shown(line)}")
     return lines
