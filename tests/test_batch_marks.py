@@ -18,7 +18,6 @@ import fitkit.batch as batch
 from fitkit.cli import main
 from fitkit.cli.batch_cmd import progress
 from fitkit.errors import FitError
-from fitkit.result import Quantity
 
 KITS = Path(__file__).resolve().parent.parent / "sample_sweeps" / "kits"
 SPEC = KITS / "spec.toml"
@@ -45,13 +44,6 @@ def folder(tmp_path):
     return d
 
 
-@dataclasses.dataclass(frozen=True)
-class MarkedQuantity(Quantity):
-    """A quantity carrying the fit core's ``doubtful`` reason."""
-
-    doubtful: str = ""
-
-
 def test_fit_warnings_and_doubtful_values_reach_summary_and_records(folder, tmp_path, monkeypatch):
     real = batch.fit_with
 
@@ -59,14 +51,15 @@ def test_fit_warnings_and_doubtful_values_reach_summary_and_records(folder, tmp_
         fit, bench = real(path, settings)
         if Path(path).name == "kit-03.csv":
             q = fit.quantities["Q"]
-            fit.quantities["Q"] = MarkedQuantity(**vars(q), doubtful="the loss is not resolved")
+            fit.quantities["Q"] = dataclasses.replace(q, doubtful="the loss is not resolved")
         return fit, bench
 
     monkeypatch.setattr(batch, "fit_with", with_doubt)
     out = tmp_path / "out"
     result = run("batch", folder, "--out", out, "--workers", "1", "--model", "series")
     assert result.exit_code == 0, result.output
-    assert "marks    1 with fit warnings, 1 with doubtful values" in result.output
+    # the coarse sweep's sparse band marks its width-related values doubtful too
+    assert "marks    1 with fit warnings, 2 with doubtful values" in result.output
     assert re.search(
         r"warning   \S+coarse\.csv: only \d+ points lie within the half-power", result.output
     )
@@ -78,9 +71,13 @@ def test_fit_warnings_and_doubtful_values_reach_summary_and_records(folder, tmp_
     data = json.loads((out / "results.json").read_text())
     json_rows = {Path(r["file"]).name: r for r in data["rows"]}
     assert json_rows["kit-03.csv"]["doubtful"] == "Q: the loss is not resolved"
-    assert data["marks"] == {"fit warnings": 1, "doubtful values": 1, "identical files": 0}
+    assert data["marks"] == {"fit warnings": 1, "doubtful values": 2, "identical files": 0}
     kinds = {(Path(n["file"]).name, n["kind"]) for n in data["notes"]}
-    assert kinds == {("coarse.csv", "warnings"), ("kit-03.csv", "doubtful")}
+    assert kinds == {
+        ("coarse.csv", "warnings"),
+        ("coarse.csv", "doubtful"),
+        ("kit-03.csv", "doubtful"),
+    }
 
 
 def _resonance_above(path, settings):
@@ -142,3 +139,23 @@ def test_progress_bar_only_on_a_terminal(monkeypatch, folder, tmp_path):
     monkeypatch.undo()
     result = run("batch", folder, "--out", tmp_path / "o", "--workers", "1", "--model", "series")
     assert result.exit_code == 0 and "fitting" not in result.output  # not a terminal
+
+
+def test_a_real_resonance_above_the_sweep_fails_its_spec(folder, tmp_path):
+    """No stand-in error: a kit whose capacitor is open (3 pF of stray capacitance with
+    330 uH resonates near 5 MHz; f0 = 1/(2 pi sqrt(LC)), any circuits text) swept at
+    100-300 kHz on the kits' bench fails the spec with the side named."""
+    import numpy as np
+
+    f = np.linspace(100e3, 300e3, 201)
+    w = 2 * np.pi * f
+    z = 5.0 + 1j * (w * 330e-6 - 1 / (w * 3e-12))
+    h = 22.0 / (22.0 + z)  # the kits' divider (sense resistor 22 ohm, fitkit-setup.toml)
+    rows = [f"{x:.1f},{abs(v):.6g},{np.degrees(np.angle(v)):.4f}" for x, v in zip(f, h)]
+    (folder / "open.csv").write_text("freq_hz,ratio,phase_deg\n" + "\n".join(rows) + "\n")
+    out = tmp_path / "out"
+    result = run("batch", folder, "--out", out, "--workers", "1", "--spec", SPEC)
+    assert result.exit_code == 0, result.output
+    row = table(out / "results.csv")["open.csv"]
+    assert row["verdict"] == "fail", row
+    assert "above 300 kHz" in row["reason"], row
