@@ -16,6 +16,10 @@ from fitkit.errors import InputError
 
 #: How much of a file is read to sniff its layout; the bulk is parsed by pandas.
 HEAD_BYTES = 256 * 1024
+#: A head is read further (doubling) until it holds this many lines or this many bytes,
+#: so a long comment or metadata line before the table does not hide the table.
+_HEAD_LINES = 40
+_HEAD_LIMIT = 64 * 1024 * 1024
 _CONTROL = re.compile(r"[\x01-\x08\x0e-\x1f]")
 
 
@@ -42,8 +46,11 @@ class FileText:
     notes: list
 
 
-def read_head(path: Path, size: int = HEAD_BYTES) -> FileText:
+def read_head(path: Path, size: int = HEAD_BYTES, *, grow: bool = True) -> FileText:
     """Decode the first ``size`` bytes of ``path`` and decide its encoding.
+
+    With ``grow``, a head of few lines (a very long line before the table) is read
+    further until it holds enough lines to sniff the layout.
 
     Raises
     ------
@@ -52,6 +59,9 @@ def read_head(path: Path, size: int = HEAD_BYTES) -> FileText:
     """
     with open(path, "rb") as fh:
         raw = fh.read(size + 1)
+        while grow and len(raw) > size and size < _HEAD_LIMIT and raw.count(b"\n") < _HEAD_LINES:
+            raw += fh.read(size)
+            size *= 2
     complete = len(raw) <= size
     raw = raw[:size]
     if not raw.strip(b" \t\r\n\x00\xef\xbb\xbf\xff\xfe"):

@@ -65,7 +65,7 @@ def looks_like_touchstone(path: Path) -> bool:
     if re.fullmatch(r"\.(s\d+p|ts)", path.suffix.lower()):
         return True
     try:
-        head = read_head(path, 4096).head
+        head = read_head(path, 4096, grow=False).head
     except InputError:
         return False
     for line in head.splitlines():
