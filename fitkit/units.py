@@ -57,7 +57,7 @@ def parse_quantity(text: str | float | int, unit: str, *, what: str = "value") -
     1.2e-11
     """
     if isinstance(text, (int, float)) and not isinstance(text, bool):
-        return float(text)
+        return _finite(float(text), text, unit, what)
     raw = str(text).strip()
     s = raw.replace(" ", "")
     for spelling in _unit_spellings(unit):
@@ -75,7 +75,16 @@ def parse_quantity(text: str | float | int, unit: str, *, what: str = "value") -
             f"cannot read {what} {raw!r} as a number in {unit}",
             remedy=f"write it as a number with an optional SI prefix, e.g. '4.7k' or '12p{unit}'",
         )
-    return float(m.group(1)) * PREFIXES[m.group(2)]
+    return _finite(float(m.group(1)) * PREFIXES[m.group(2)], raw, unit, what)
+
+
+def _finite(value: float, raw, unit: str, what: str) -> float:
+    if not math.isfinite(value):
+        raise SetupError(
+            f"{what} {raw!r} is not a finite number",
+            remedy=f"write a value a bench can have, e.g. '4.7k' or '12p{unit}'",
+        )
+    return value
 
 
 def _unit_spellings(unit: str) -> list[str]:

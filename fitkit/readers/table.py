@@ -21,7 +21,7 @@ from fitkit.readers.columns import describe_column, parse_overrides
 from fitkit.readers.layout import ColumnInfo, Reading
 from fitkit.readers.roles import Plan, plan_columns
 from fitkit.readers.text import read_all, read_head
-from fitkit.readers.tidy import line_list, tidy_sweep
+from fitkit.readers.tidy import line_list, refuse_infinite, tidy_sweep
 from fitkit.readers.units import lookup_unit
 
 _NUMBER = re.compile(r"[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?|[-+]?(?:nan|inf)", re.I)
@@ -100,6 +100,8 @@ def read_table(
     plan = plan_columns(header, overrides, kind_asked, path, dialect.header_line)
     notes = list(head.notes) + plan.notes
     cells, line_numbers = _parse_rows(path, dialect, plan, notes)
+    names = {role: col.name or col.position for role, (col, _) in plan.roles.items()}
+    refuse_infinite(cells, line_numbers, names, path=path)
     freq, values = plan.values(cells)
     del cells  # frees the parser's block before the clean-up makes its own arrays
     freq_col = plan.roles["freq"][0]

@@ -58,8 +58,9 @@ def tidy_sweep(
     if isinstance(lines, (int, np.integer)) and (empty.any() or freq_hz.size < 2):
         lines = np.arange(freq_hz.size) + lines
     if empty.any():
-        kept_after = np.flatnonzero(~empty)
-        last = kept_after[-1] if kept_after.size else -1
+        # blank lines at the end of a file go quietly; any row with a number in it is said
+        written = np.flatnonzero(~(np.isnan(freq_hz) & np.isnan(values)))
+        last = written[-1] if written.size else -1
         inner = np.flatnonzero(empty[: last + 1])
         if inner.size:
             notes.append(f"dropped {inner.size} blank/NaN row(s) ({line_list(lines[inner])})")
@@ -111,6 +112,39 @@ def tidy_sweep(
         metadata=dict(metadata),
         notes=notes,
     )
+
+
+def refuse_infinite(
+    cells: dict[str, np.ndarray], lines: np.ndarray | int, columns: dict, *, path: Path
+) -> None:
+    """Refuse a cell written as ``inf`` or ``-inf`` before any conversion can hide it
+    (``-inf`` dB would become a magnitude of 0).
+
+    Parameters
+    ----------
+    cells : dict
+        Role to the column's parsed numbers.
+    lines : ndarray of int, or int
+        The file line of each row, or the first row's line.
+    columns : dict
+        Role to the column's name or position, for the message.
+
+    Raises
+    ------
+    InputError
+        Naming the line, the column and the fix.
+    """
+    for role, numbers in cells.items():
+        bad = np.isinf(numbers)
+        if bad.any():
+            row = int(np.argmax(bad))
+            raise InputError(
+                f"the cell holds {numbers[row]:g} (an overload or a missing reading?)",
+                remedy="repair the cell or delete the row; fitkit does not guess a value",
+                path=path,
+                line=_line(lines, row),
+                column=columns[role],
+            )
 
 
 def _line(lines: np.ndarray | int, row: int) -> int:
