@@ -8,6 +8,7 @@ import sys
 import click
 
 from fitkit import __version__
+from fitkit.cli.checks import output_file
 from fitkit.errors import FitkitError
 
 
@@ -38,5 +39,9 @@ def plot_options(func):
     """``--plot FILE`` and ``--force`` (to replace an existing plot)."""
     func = click.option("--force", is_flag=True, help="Replace an existing plot file.")(func)
     return click.option(
-        "--plot", "plot_path", type=click.Path(dir_okay=False), help="Write a plot (PNG)."
+        "--plot",
+        "plot_path",
+        type=click.Path(dir_okay=False),
+        callback=output_file(".png", ".svg", ".pdf"),
+        help="Write a plot (PNG; .svg and .pdf also work).",
     )(func)

@@ -17,6 +17,7 @@ from fitkit.batch import (
     summarise,
     write_results,
 )
+from fitkit.cli import checks
 from fitkit.cli.base import main, reports_errors
 from fitkit.cli.fit_cmd import bench_options, model_option, overrides_from_options
 from fitkit.result import QUANTITIES
@@ -39,11 +40,14 @@ from fitkit.spec import RULES, load_spec
 @click.option(
     "--coverage",
     type=click.FloatRange(min=0),
+    callback=checks.finite,
     help="Guard band in standard uncertainties, k [default: 2].",
 )
 @bench_options
 @model_option
-@click.option("--noise", help="Stated noise for every sweep (as for 'fitkit fit').")
+@click.option(
+    "--noise", callback=checks.noise, help="Stated noise for every sweep (as for 'fitkit fit')."
+)
 @click.option(
     "--workers", type=click.IntRange(min=0), default=0, help="Worker processes; 0 = one per core."
 )
@@ -79,6 +83,10 @@ def batch_command(
     not be read or fitted, batch statistics and the units that stand out. Exit status 0
     when every file was processed (whatever the verdicts), 2 on bad inputs.
     """
+    if resume and force:
+        raise click.UsageError(
+            "--resume keeps finished fits and --force replaces them; give one of the two"
+        )
     out = Path(out_dir)
     spec = load_spec(spec_file).with_rule(rule, coverage) if spec_file else None
     files = find_inputs(inputs, skip=out)

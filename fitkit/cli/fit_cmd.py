@@ -7,6 +7,7 @@ import click
 from fitkit.bench_file import (
     DEFAULT_NAME,
 )
+from fitkit.cli import checks
 from fitkit.cli.base import main, plot_options, reports_errors
 from fitkit.cli.read_options import columns_from_options, read_options
 from fitkit.errors import refuse_overwrite
@@ -29,12 +30,23 @@ def bench_options(func):
         click.option("--bench", type=click.Choice(BENCHES), help="How the sweep was taken."),
         click.option(
             "--source-r",
+            callback=checks.bench_value("source_ohm"),
             help="Generator source resistance, ohm [default: 50].",
         ),
-        click.option("--sense-r", help="Sense resistor of a divider, ohm (e.g. 47, 4k7)."),
-        click.option("--feed-r", help="Resistor feeding the circuit on an across bench, ohm."),
         click.option(
-            "--probe-c", help="Probe/input capacitance across the sense resistor (e.g. 15p)."
+            "--sense-r",
+            callback=checks.bench_value("sense_ohm"),
+            help="Sense resistor of a divider, ohm (e.g. 47, 4k7).",
+        ),
+        click.option(
+            "--feed-r",
+            callback=checks.bench_value("feed_ohm"),
+            help="Resistor feeding the circuit on an across bench, ohm.",
+        ),
+        click.option(
+            "--probe-c",
+            callback=checks.bench_value("probe_f"),
+            help="Probe/input capacitance across the sense resistor (e.g. 15p).",
         ),
         click.option(
             "--ratio-ref",
@@ -43,7 +55,9 @@ def bench_options(func):
             "[default] or its open-circuit EMF (source resistance then in the loop).",
         ),
         click.option(
-            "--amplitude", help="Generator amplitude for volt sweeps: '2 Vpp', '0.7 Vrms'."
+            "--amplitude",
+            callback=checks.bench_value("amplitude_vrms"),
+            help="Generator amplitude for volt sweeps: '2 Vpp', '0.7 Vrms'.",
         ),
         click.option(
             "--display",
@@ -51,7 +65,11 @@ def bench_options(func):
             help="Generator display assumes a matched 50 ohm load (shows half the EMF) "
             "[default], or shows the open-circuit EMF.",
         ),
-        click.option("--z0", help="Reference impedance of S-parameters, ohm [default: 50]."),
+        click.option(
+            "--z0",
+            callback=checks.bench_value("z0_ohm"),
+            help="Reference impedance of S-parameters, ohm [default: 50].",
+        ),
         click.option(
             "--relative/--calibrated",
             default=None,
@@ -61,6 +79,7 @@ def bench_options(func):
             "--known",
             multiple=True,
             metavar="NAME=VALUE",
+            callback=checks.known,
             help="A value measured otherwise, e.g. L=100u or L=100u+-0.5u (LCR meter).",
         ),
     ]
@@ -101,6 +120,7 @@ def overrides_from_options(opts: dict) -> dict:
 @read_options
 @click.option(
     "--noise",
+    callback=checks.noise,
     help="Stated noise: '0.05dB', '0.05dB,0.3deg', '1%' or an additive '2e-3'. "
     "Default: estimated from the residuals.",
 )

@@ -72,7 +72,13 @@ TARGET_NAMES = {
     type=float,
     help="Half-span in loaded bandwidths (+-SPAN).",
 )
-@click.option("--points", default=201, show_default=True, type=int, help="Points per sweep.")
+@click.option(
+    "--points",
+    default=201,
+    show_default=True,
+    type=click.IntRange(3, 100_000),
+    help="Points per sweep.",
+)
 @click.option("--spacing", type=click.Choice(SPACINGS), default="linear", show_default=True)
 @click.option("--centre", "centre_text", help="Sweep centre frequency [default: the resonance].")
 @click.option(

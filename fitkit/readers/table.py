@@ -29,7 +29,17 @@ _NUMBER = re.compile(r"[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?|[-+]?(?:nan|inf
 _GROUPED = re.compile(r"[-+]?\d{1,3}(?:,\d{3})+(?:\.\d*)?")
 _GROUP_COMMA = re.compile(r"(?<=\d),(?=\d{3}(?:[.,]|$))")
 #: "1.119k", "681.8m", "4.7 u": engineering notation with an SI prefix.
-_PREFIX_EXPONENTS = {"p": -12, "n": -9, "u": -6, "\u00b5": -6, "\u03bc": -6, "m": -3, "k": 3, "M": 6, "G": 9}
+_PREFIX_EXPONENTS = {
+    "p": -12,
+    "n": -9,
+    "u": -6,
+    "\u00b5": -6,
+    "\u03bc": -6,
+    "m": -3,
+    "k": 3,
+    "M": 6,
+    "G": 9,
+}
 _PREFIXED = re.compile(r"([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s?([pnu\u00b5\u03bcmkMG])")
 _COMMENT = ("#", "!", "//", ";", "%")
 #: Candidate (delimiter, decimal mark); None is a run of spaces or tabs.
@@ -171,7 +181,9 @@ def to_numbers(column: pd.Series, decimal: str) -> pd.Series:
         exponent = found[1].map(_PREFIX_EXPONENTS).to_numpy()
         value = pd.to_numeric(found[0]).to_numpy()
         # one correctly rounded step from the cell: 681.8m is 681.8 / 1000 exactly rounded
-        scaled = np.where(exponent > 0, value * 10.0 ** np.abs(exponent), value / 10.0 ** np.abs(exponent))
+        scaled = np.where(
+            exponent > 0, value * 10.0 ** np.abs(exponent), value / 10.0 ** np.abs(exponent)
+        )
         scaled = pd.Series(scaled, index=found.index)
         numbers = numbers.where(~parts.fillna(False), scaled)
     return numbers
@@ -309,7 +321,9 @@ def _parse_rows(path: Path, dialect: Dialect, plan: Plan, notes: list):
     if dialect.text_cells:
         return _parse_rows_slowly(path, dialect, plan, wanted, kwargs, notes)
     try:
-        frame = _read_csv(path, dialect, notes, dtype=dict.fromkeys(wanted.values(), np.float64), **kwargs)
+        frame = _read_csv(
+            path, dialect, notes, dtype=dict.fromkeys(wanted.values(), np.float64), **kwargs
+        )
     except ValueError:
         return _parse_rows_slowly(path, dialect, plan, wanted, kwargs, notes)
     cells = {role: frame[i].to_numpy(dtype=np.float64) for role, i in wanted.items()}
@@ -342,7 +356,7 @@ def _ragged(exc: Exception, path: Path, dialect: Dialect) -> InputError:
     if not m:
         quote = re.search(r"EOF inside string starting at row (\d+)", str(exc))
         return InputError(
-            "a quote (\") is opened and never closed"
+            'a quote (") is opened and never closed'
             if quote
             else "the rows cannot be split into cells",
             remedy="repair the row: remove the stray quote or delimiter, or delete the row",

@@ -57,11 +57,20 @@ def read_head(path: Path, size: int = HEAD_BYTES, *, grow: bool = True) -> FileT
     InputError
         When the file is empty or holds binary data rather than text.
     """
-    with open(path, "rb") as fh:
-        raw = fh.read(size + 1)
-        while grow and len(raw) > size and size < _HEAD_LIMIT and raw.count(b"\n") < _HEAD_LINES:
-            raw += fh.read(size)
-            size *= 2
+    try:
+        with open(path, "rb") as fh:
+            raw = fh.read(size + 1)
+            while (
+                grow and len(raw) > size and size < _HEAD_LIMIT and raw.count(b"\n") < _HEAD_LINES
+            ):
+                raw += fh.read(size)
+                size *= 2
+    except OSError as exc:
+        raise InputError(
+            f"cannot read the file ({exc.strerror})",
+            remedy="check that the file is readable by you (its permissions) and not in use",
+            path=path,
+        ) from None
     complete = len(raw) <= size
     raw = raw[:size]
     if not raw.strip(b" \t\r\n\x00\xef\xbb\xbf\xff\xfe"):

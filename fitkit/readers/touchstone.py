@@ -210,7 +210,18 @@ def _parse(lines: list[str], path: Path) -> _File:
                 path=path,
                 line=n,
             )
-        if len(state.numbers) % _record_size(state.ports, state.matrix) == 0:
+        size = _record_size(state.ports, state.matrix)
+        if len(values) > size:
+            found = {9: "two-port", 3: "one-port"}.get(len(values), f"{len(values)}-number")
+            raise InputError(
+                f"the line holds {len(values)} numbers where a {state.ports}-port record "
+                f"holds {size} ({found} data in a {path.suffix or 'Touchstone'} file?)",
+                remedy="name the file after its ports (.s1p: 3 numbers a line, .s2p: 9), "
+                "or export it again",
+                path=path,
+                line=n,
+            )
+        if len(state.numbers) % size == 0:
             if previous is not None and values[0] <= previous:
                 if v2 or state.ports != 2:
                     raise InputError(
