@@ -36,8 +36,9 @@ import math
 import re
 from pathlib import Path
 
-from fitkit.errors import InputError, SetupError
-from fitkit.setups import DEFAULT_BENCH, Setup
+from fitkit.errors import FitkitError, InputError, SetupError
+from fitkit.readers.columns import parse_overrides
+from fitkit.setups import BENCHES, DEFAULT_BENCH, DISPLAYS, REFERENCES, Setup
 from fitkit.sweep import Sweep
 from fitkit.tomlfile import read_toml
 from fitkit.units import parse_quantity
@@ -59,6 +60,7 @@ _FIELDS = {
 }
 _KNOWN_UNITS = {"R": "ohm", "L": "H", "C": "F"}
 _SECTIONS = ("bench", "known", "columns")
+_CHOICES = {"bench": BENCHES, "reference": REFERENCES, "display": DISPLAYS}
 _EXAMPLES = {
     "source_ohm": "50",
     "sense_ohm": "47 or 4k7",
@@ -154,6 +156,26 @@ def _check_tables(data: dict, path: Path, prefix: str) -> None:
         for key in table:
             if allowed[section] is not None and key not in allowed[section]:
                 raise _unknown(f"{key!r} in [{prefix}{section}]", key, allowed[section], path)
+    _check_values(data, path, prefix)
+
+
+def _check_values(data: dict, path: Path, prefix: str) -> None:
+    """Each value readable and in range, so a mistake is named with the setup file."""
+    parse_overrides(data.get("columns"), path)
+    try:
+        for key, raw in data.get("bench", {}).items():
+            where = f"[{prefix}bench] {key}"
+            name, unit = _FIELDS[key]
+            value = _convert(name, unit, raw, what=where)
+            if name in _CHOICES and value not in _CHOICES[name]:
+                raise SetupError(
+                    f"{where} = {raw!r} is not one of the choices",
+                    remedy=f"choose one of: {', '.join(_CHOICES[name])}",
+                )
+        for name, raw in data.get("known", {}).items():
+            _known_value(name, raw)
+    except FitkitError as exc:
+        raise InputError(exc.message, remedy=exc.remedy, path=path) from None
 
 
 def _unknown(what: str, key: str, choices: list, path: Path) -> InputError:

@@ -199,15 +199,15 @@ def load_spec(path: str | Path) -> Spec:
 
 def _known_keys(where: str, table: dict, allowed, path: Path) -> None:
     """Refuse an unknown key, suggesting the nearest known one (``decison``)."""
-    for key in table:
-        if key not in allowed:
-            near = difflib.get_close_matches(key, list(allowed), n=1)
-            hint = f"did you mean {near[0]!r}? " if near else ""
-            raise InputError(
-                f"{where} has an unknown key {key!r}",
-                remedy=f"{hint}known keys: {', '.join(sorted(allowed))}",
-                path=path,
-            )
+    unknown = sorted(set(table) - set(allowed))
+    if unknown:
+        near = difflib.get_close_matches(unknown[0], list(allowed), n=1)
+        hint = f"did you mean {near[0]!r} for {unknown[0]!r}? " if near else ""
+        raise InputError(
+            f"{where} has unknown key(s) {', '.join(unknown)}",
+            remedy=f"{hint}known keys: {', '.join(sorted(allowed))}",
+            path=path,
+        )
 
 
 def _limit(name: str, table, path: Path) -> Limit:

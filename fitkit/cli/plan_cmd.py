@@ -76,7 +76,7 @@ TARGET_NAMES = {
     "--points",
     default=201,
     show_default=True,
-    type=click.IntRange(3, 100_000),
+    type=click.IntRange(max=100_000),
     help="Points per sweep.",
 )
 @click.option("--spacing", type=click.Choice(SPACINGS), default="linear", show_default=True)

@@ -170,6 +170,11 @@ def _typed_values(typed) -> dict:
     values = {}
     for text in typed:
         name, (value, err) = parse_known(text)
+        if name in values:
+            raise PredictionError(
+                f"--value gives {name} more than once",
+                remedy="give each of R, L, C once, e.g. --value R=6.8 --value L=220u --value C=1n",
+            )
         values[name] = ufloat(value, err) if err else value  # a zero error is no error
     missing = [n for n in COMPONENTS if n not in values]
     if missing:

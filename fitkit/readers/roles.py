@@ -166,6 +166,8 @@ def _pick_measured(chosen, free, kind_asked, notes, path, line) -> None:
         wanted = ("real", "imag")
         if "mag" in by_role:
             notes.append("read the real and imaginary parts (the magnitude columns also given)")
+    elif ("real" in by_role or "imag" in by_role) and "mag" not in by_role:
+        wanted = ("real", "imag")  # one part alone: refused below, naming the other
     else:
         wanted = ("mag", "phase")
     for role in wanted:

@@ -24,7 +24,7 @@ from fitkit.readers.text import read_all, read_head
 from fitkit.readers.tidy import line_list, refuse_infinite, tidy_sweep
 from fitkit.readers.units import lookup_unit
 
-_NUMBER = re.compile(r"[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?|[-+]?(?:nan|inf)", re.I)
+_NUMBER = re.compile(r"[-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?|[-+]?(?:nan|inf)", re.I)
 #: "1,012,500.0": thousands grouped by commas (a decimal point file only).
 _GROUPED = re.compile(r"[-+]?\d{1,3}(?:,\d{3})+(?:\.\d*)?")
 _GROUP_COMMA = re.compile(r"(?<=\d),(?=\d{3}(?:[.,]|$))")
@@ -40,7 +40,7 @@ _PREFIX_EXPONENTS = {
     "M": 6,
     "G": 9,
 }
-_PREFIXED = re.compile(r"([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s?([pnu\u00b5\u03bcmkMG])")
+_PREFIXED = re.compile(r"([-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?)\s?([pnu\u00b5\u03bcmkMG])")
 _COMMENT = ("#", "!", "//", ";", "%")
 #: Candidate (delimiter, decimal mark); None is a run of spaces or tabs.
 _DIALECTS = (("\t", "."), (";", "."), (",", "."), (None, "."), ("\t", ","), (";", ","), (None, ","))
@@ -144,6 +144,8 @@ def _split(line: str, delimiter: str | None) -> list[str]:
 def _cell_form(cell: str, decimal: str) -> str | None:
     """``"plain"``, ``"grouped"`` (thousands commas), ``"prefixed"`` (SI prefix) or None."""
     cell = cell.strip().strip('"').strip()
+    if len(cell) > 64:  # no instrument writes a number this long
+        return None
     if decimal == ",":
         if "." in cell:
             return None

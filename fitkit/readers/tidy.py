@@ -139,7 +139,8 @@ def refuse_infinite(
         if bad.any():
             row = int(np.argmax(bad))
             raise InputError(
-                f"the cell holds {numbers[row]:g} (an overload or a missing reading?)",
+                f"the cell holds an infinite value, {numbers[row]:g} (an overload or a missing "
+                "reading?)",
                 remedy="repair the cell or delete the row; fitkit does not guess a value",
                 path=path,
                 line=_line(lines, row),
