@@ -20,7 +20,7 @@ from fitkit.errors import InputError
 from fitkit.readers.columns import describe_column, parse_overrides
 from fitkit.readers.layout import ColumnInfo, Reading
 from fitkit.readers.roles import Plan, plan_columns
-from fitkit.readers.text import read_all, read_head
+from fitkit.readers.text import file_sha256, read_all, read_head
 from fitkit.readers.tidy import line_list, refuse_infinite, tidy_sweep
 from fitkit.readers.units import lookup_unit
 
@@ -126,6 +126,7 @@ def read_table(
         notes=notes,
         duplicates=duplicates,
         freq_column=freq_col.name or freq_col.position,
+        sha256=file_sha256(path),
     )
     used = {col.position: (role, unit.text) for role, (col, unit) in plan.roles.items()}
     infos = [ColumnInfo(c.position, c.name, *used.get(c.position, (None, None))) for c in header]

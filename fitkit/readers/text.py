@@ -8,6 +8,7 @@ decodes any byte, so it is tried last and said in the notes.
 from __future__ import annotations
 
 import codecs
+import hashlib
 import re
 from dataclasses import dataclass
 from pathlib import Path
@@ -121,6 +122,15 @@ def read_all(path: Path, encoding: str) -> str:
         ) from None
     _refuse_binary(text, path)
     return text
+
+
+def file_sha256(path: Path) -> str:
+    """The SHA-256 of the file's bytes, read in blocks (the file is not held in memory)."""
+    digest = hashlib.sha256()
+    with open(path, "rb") as fh:
+        for block in iter(lambda: fh.read(1 << 20), b""):
+            digest.update(block)
+    return digest.hexdigest()
 
 
 def _decode(raw: bytes, encoding: str, complete: bool) -> str | None:

@@ -34,6 +34,7 @@ def tidy_sweep(
     notes: list,
     duplicates: str = "average",
     freq_column: str | int | None = None,
+    sha256: str | None = None,
 ) -> Sweep:
     """Make a :class:`Sweep` from parsed columns, cleaning up and saying what was done.
 
@@ -46,6 +47,8 @@ def tidy_sweep(
         row's line when the rows are consecutive lines (saves an array per row).
     duplicates : {"average", "refuse"}
         What to do with a frequency written more than once.
+    sha256 : str, optional
+        The file's SHA-256, carried on the Sweep.
 
     Raises
     ------
@@ -111,6 +114,7 @@ def tidy_sweep(
         source=str(path),
         metadata=dict(metadata),
         notes=notes,
+        sha256=sha256,
     )
 
 

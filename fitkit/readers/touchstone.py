@@ -24,7 +24,7 @@ import numpy as np
 
 from fitkit.errors import InputError
 from fitkit.readers.layout import ColumnInfo, Reading
-from fitkit.readers.text import read_all, read_head
+from fitkit.readers.text import file_sha256, read_all, read_head
 from fitkit.readers.tidy import tidy_sweep
 
 _FREQ_UNITS = {"hz": 1.0, "khz": 1e3, "mhz": 1e6, "ghz": 1e9}
@@ -146,6 +146,7 @@ def read_touchstone(path: Path, *, parameter: str | None = None) -> Reading:
         notes=notes,
         duplicates="refuse",
         freq_column=1,
+        sha256=file_sha256(path),
     )
     first, second = _FIRST_PART[opts.format], _SECOND_PART[opts.format]
     unit = {"hz": "Hz", "khz": "kHz", "mhz": "MHz", "ghz": "GHz"}[opts.unit]
