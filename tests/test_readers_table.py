@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import hashlib
 import math
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -237,5 +238,5 @@ def test_bad_overrides_are_refused(tmp_path):
 def test_the_sweep_carries_the_files_sha256(tmp_path):
     # checked against hashlib over the bytes on disk (the reference implementation)
     path = write(tmp_path, "freq (Hz),gain (dB)\n1,2\n2,3\n")
-    expected = hashlib.sha256(open(path, "rb").read()).hexdigest()
+    expected = hashlib.sha256(Path(path).read_bytes()).hexdigest()
     assert read_sweep(path).sha256 == expected
