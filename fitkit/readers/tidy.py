@@ -85,6 +85,7 @@ def tidy_sweep(
             line=_line(lines, i),
             column=freq_column,
         )
+    _refuse_beyond_readings(freq_hz, values, lines, path, freq_column)
     if freq_hz.size < 2:
         raise InputError(
             f"the file holds {freq_hz.size} point(s) of data",
@@ -150,6 +151,38 @@ def refuse_infinite(
                 line=_line(lines, row),
                 column=columns[role],
             )
+
+
+#: No sweep instrument reaches 10 THz, and no reading in SI (volts, ohm, a ratio) comes
+#: near 1e100; beyond these a unit or a column is wrong, and the fit's arithmetic would
+#: overflow (its squares pass 1e308).
+MAX_FREQ_HZ = 1e13
+MAX_READING = 1e100
+
+
+def _refuse_beyond_readings(freq_hz, values, lines, path, freq_column) -> None:
+    if freq_hz.size and freq_hz.max() > MAX_FREQ_HZ:
+        i = int(np.argmax(freq_hz > MAX_FREQ_HZ))
+        raise InputError(
+            f"frequency {freq_hz[i]:g} Hz is beyond any sweep instrument (above 10 THz)",
+            remedy="check the frequency column's unit (Hz, kHz, MHz, GHz) and the column",
+            path=path,
+            line=_line(lines, i),
+            column=freq_column,
+        )
+    size = np.abs(values)
+    if not size.size:
+        return
+    largest = float(size.max())
+    if largest > MAX_READING or 0 < largest < 1 / MAX_READING:
+        what = "beyond 1e100" if largest > MAX_READING else "the largest, and all are below 1e-100"
+        raise InputError(
+            f"the reading {largest:g} is {what}: far outside anything an instrument writes",
+            remedy="check the measured column's unit and that the right column is read "
+            "(--column mag=NAME:UNIT)",
+            path=path,
+            line=_line(lines, int(np.argmax(size))),
+        )
 
 
 def _line(lines: np.ndarray | int, row: int) -> int:
