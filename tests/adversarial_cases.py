@@ -240,6 +240,8 @@ FIT_OPTIONS = [
     ("noise_phase_only", ("--noise", "0.3deg"), ("--noise", "magnitude")),
     ("noise_two_additive", ("--noise", "1e-3,2e-3"), ("--noise",)),
     ("skin_text", ("--skin-above", "high"), ("skin",)),
+    ("skin_negative", ("--skin-above", "-5k"), ("--skin-above", "above 0")),
+    ("skin_zero", ("--skin-above", "0"), ("--skin-above", "above 0")),
     ("model_unknown", ("--model", "ladder"), ("--model",)),
     ("plot_missing_folder", ("--plot", "{tmp}/no/such/fit.png"), ("--plot", "mkdir")),
     ("plot_wrong_suffix", ("--plot", "{tmp}/fit.txt"), ("--plot", ".png")),

@@ -127,6 +127,7 @@ def overrides_from_options(opts: dict) -> dict:
 @model_option
 @click.option(
     "--skin-above",
+    callback=checks.positive("Hz"),
     help="The loss grows as sqrt(f) above this frequency (skin effect), e.g. 200k.",
 )
 @click.option("--keep-outliers", is_flag=True, help="Do not refit without outlying points.")
