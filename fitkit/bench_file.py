@@ -30,7 +30,6 @@ which files; a file that two patterns match is refused.
 
 from __future__ import annotations
 
-import difflib
 import fnmatch
 import math
 import re
@@ -40,7 +39,7 @@ from fitkit.errors import FitkitError, InputError, SetupError
 from fitkit.readers.columns import parse_overrides
 from fitkit.setups import BENCHES, DEFAULT_BENCH, DISPLAYS, REFERENCES, Setup
 from fitkit.sweep import Sweep
-from fitkit.tomlfile import read_toml
+from fitkit.tomlfile import read_toml, refuse_unknown_keys
 from fitkit.units import parse_quantity
 
 DEFAULT_NAME = "fitkit-setup.toml"
@@ -148,14 +147,17 @@ def load_bench_file(path: str | Path, *, for_sweep: str | Path | None = None) ->
 def _check_tables(data: dict, path: Path, prefix: str) -> None:
     """Every section a table of known keys; a misspelt key gets the nearest known one."""
     allowed = {"bench": list(_FIELDS), "known": list(_KNOWN_UNITS), "columns": None}
+    refuse_unknown_keys(
+        f"the setup file{' [' + prefix[:-1] + ']' if prefix else ''}",
+        data,
+        [*allowed, *([] if prefix else ["files"])],
+        path,
+    )
     for section, table in data.items():
-        if section not in allowed:
-            raise _unknown(f"[{prefix}{section}]", section, list(allowed) + ["files"], path)
         if not isinstance(table, dict):
             raise _not_a_table(prefix + section, table, path)
-        for key in table:
-            if allowed[section] is not None and key not in allowed[section]:
-                raise _unknown(f"{key!r} in [{prefix}{section}]", key, allowed[section], path)
+        if allowed[section] is not None:
+            refuse_unknown_keys(f"[{prefix}{section}]", table, allowed[section], path)
     _check_values(data, path, prefix)
 
 
@@ -176,16 +178,6 @@ def _check_values(data: dict, path: Path, prefix: str) -> None:
             _known_value(name, raw)
     except FitkitError as exc:
         raise InputError(exc.message, remedy=exc.remedy, path=path) from None
-
-
-def _unknown(what: str, key: str, choices: list, path: Path) -> InputError:
-    near = difflib.get_close_matches(key, choices, n=1)
-    hint = f"did you mean {near[0]!r}? " if near else ""
-    return InputError(
-        f"unknown setting {what}",
-        remedy=f"{hint}known here: {', '.join(choices)}",
-        path=path,
-    )
 
 
 def _not_a_table(name: str, value, path: Path) -> InputError:

@@ -38,7 +38,7 @@ from pathlib import Path
 
 from fitkit.errors import FitkitError, InputError
 from fitkit.result import QUANTITIES
-from fitkit.tomlfile import read_toml
+from fitkit.tomlfile import read_toml, refuse_unknown_keys
 from fitkit.units import format_quantity, parse_quantity
 
 _QUANTITY_OF = {
@@ -167,7 +167,7 @@ def load_spec(path: str | Path) -> Spec:
             remedy='write it as a section: [rule] on its own line, then decision = "guarded"',
             path=p,
         )
-    _known_keys("[rule]", rule, ("decision", "coverage"), p)
+    refuse_unknown_keys("[rule]", rule, ("decision", "coverage"), p)
     limits = tuple(_limit(name, table, p) for name, table in data.items())
     if not limits:
         raise InputError(
@@ -197,19 +197,6 @@ def load_spec(path: str | Path) -> Spec:
     return Spec(limits, decision, float(coverage), str(p))
 
 
-def _known_keys(where: str, table: dict, allowed, path: Path) -> None:
-    """Refuse an unknown key, suggesting the nearest known one (``decison``)."""
-    unknown = sorted(set(table) - set(allowed))
-    if unknown:
-        near = difflib.get_close_matches(unknown[0], list(allowed), n=1)
-        hint = f"did you mean {near[0]!r} for {unknown[0]!r}? " if near else ""
-        raise InputError(
-            f"{where} has unknown key(s) {', '.join(unknown)}",
-            remedy=f"{hint}known keys: {', '.join(sorted(allowed))}",
-            path=path,
-        )
-
-
 def _limit(name: str, table, path: Path) -> Limit:
     if name not in SPEC_NAMES or not isinstance(table, dict):
         near = difflib.get_close_matches(name, list(SPEC_NAMES), n=1)
@@ -220,7 +207,7 @@ def _limit(name: str, table, path: Path) -> Limit:
             remedy=f"{hint}use tables named {', '.join(SPEC_NAMES)} (and [rule])",
             path=path,
         )
-    _known_keys(f"[{name}]", table, _LIMIT_KEYS, path)
+    refuse_unknown_keys(f"[{name}]", table, sorted(_LIMIT_KEYS), path)
     quantity, unit = SPEC_NAMES[name]
     try:
         return _limit_values(name, quantity, unit, table)

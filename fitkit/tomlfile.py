@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import difflib
 import sys
 from pathlib import Path
 
@@ -50,3 +51,22 @@ def read_toml(path: str | Path, *, what: str, option: str, layout: str) -> dict:
         ) from None
     except tomllib.TOMLDecodeError as exc:
         raise InputError(f"not a valid TOML {what} ({exc})", remedy=layout, path=p) from None
+
+
+def refuse_unknown_keys(where: str, table: dict, allowed, path: str | Path) -> None:
+    """Refuse keys outside ``allowed``, suggesting the nearest known one (``decison``).
+
+    Raises
+    ------
+    InputError
+        Naming the file, where the keys are and the known keys.
+    """
+    unknown = sorted(set(table) - set(allowed))
+    if unknown:
+        near = difflib.get_close_matches(unknown[0], list(allowed), n=1)
+        hint = f"did you mean {near[0]!r} for {unknown[0]!r}? " if near else ""
+        raise InputError(
+            f"{where} has unknown key(s) {', '.join(unknown)}",
+            remedy=f"{hint}known keys: {', '.join(allowed)}",
+            path=path,
+        )

@@ -27,37 +27,33 @@ def _bad(exc: FitkitError, ctx, param) -> click.BadParameter:
     return click.BadParameter(text, ctx=ctx, param=param)
 
 
-def bench_value(field: str):
-    """A callback checking a bench value (``sense_ohm``, ...) as the setup file's are."""
+def _calling(check_value, doc: str):
+    """A callback that runs ``check_value`` on a given value and turns a fitkit error
+    into click's usage error naming the option."""
 
-    def check(ctx, param, value):
+    def callback(ctx, param, value):
         if value is not None:
             try:
-                check_override(field, value)
+                check_value(value)
             except FitkitError as exc:
                 raise _bad(exc, ctx, param) from None
         return value
 
-    return check
+    callback.__doc__ = doc
+    return callback
 
 
-def known(ctx, param, values: tuple) -> tuple:
-    """``--known NAME=VALUE``: readable, positive, each name once."""
-    try:
-        known_values(None, values)
-    except FitkitError as exc:
-        raise _bad(exc, ctx, param) from None
-    return values
+def bench_value(field: str):
+    """A callback checking a bench value (``sense_ohm``, ...) as the setup file's are."""
+    return _calling(lambda value: check_override(field, value), bench_value.__doc__)
 
 
-def noise(ctx, param, value):
-    """``--noise``: one of the forms ``fitkit fit --help`` lists."""
-    if value is not None:
-        try:
-            parse_noise(value, _PROBE)
-        except FitkitError as exc:
-            raise _bad(exc, ctx, param) from None
-    return value
+known = _calling(
+    lambda values: known_values(None, values), "``--known NAME=VALUE``: readable, each once."
+)
+noise = _calling(
+    lambda value: parse_noise(value, _PROBE), "``--noise``: a form ``fitkit fit --help`` lists."
+)
 
 
 def positive(unit: str):

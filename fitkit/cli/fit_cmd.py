@@ -18,6 +18,11 @@ from fitkit.units import parse_quantity
 from fitkit.workflow import fit_file
 
 
+def _value_option(flag: str, field: str, help_text: str):
+    """A bench value option, checked as the setup file's values are before any work."""
+    return click.option(flag, callback=checks.bench_value(field), help=help_text)
+
+
 def bench_options(func):
     """The bench setup options shared by every command that fits a sweep."""
     options = [
@@ -28,25 +33,17 @@ def bench_options(func):
             help=f"Setup file (TOML); default: {DEFAULT_NAME} beside the sweep, if any.",
         ),
         click.option("--bench", type=click.Choice(BENCHES), help="How the sweep was taken."),
-        click.option(
-            "--source-r",
-            callback=checks.bench_value("source_ohm"),
-            help="Generator source resistance, ohm [default: 50].",
+        _value_option(
+            "--source-r", "source_ohm", "Generator source resistance, ohm [default: 50]."
         ),
-        click.option(
-            "--sense-r",
-            callback=checks.bench_value("sense_ohm"),
-            help="Sense resistor of a divider, ohm (e.g. 47, 4k7).",
+        _value_option("--sense-r", "sense_ohm", "Sense resistor of a divider, ohm (e.g. 47, 4k7)."),
+        _value_option(
+            "--feed-r", "feed_ohm", "Resistor feeding the circuit on an across bench, ohm."
         ),
-        click.option(
-            "--feed-r",
-            callback=checks.bench_value("feed_ohm"),
-            help="Resistor feeding the circuit on an across bench, ohm.",
-        ),
-        click.option(
+        _value_option(
             "--probe-c",
-            callback=checks.bench_value("probe_f"),
-            help="Probe/input capacitance across the sense resistor (e.g. 15p).",
+            "probe_f",
+            "Probe/input capacitance across the sense resistor (e.g. 15p).",
         ),
         click.option(
             "--ratio-ref",
@@ -54,10 +51,10 @@ def bench_options(func):
             help="Divider ratio taken against the generator's output terminal "
             "[default] or its open-circuit EMF (source resistance then in the loop).",
         ),
-        click.option(
+        _value_option(
             "--amplitude",
-            callback=checks.bench_value("amplitude_vrms"),
-            help="Generator amplitude for volt sweeps: '2 Vpp', '0.7 Vrms'.",
+            "amplitude_vrms",
+            "Generator amplitude for volt sweeps: '2 Vpp', '0.7 Vrms'.",
         ),
         click.option(
             "--display",
@@ -65,11 +62,7 @@ def bench_options(func):
             help="Generator display assumes a matched 50 ohm load (shows half the EMF) "
             "[default], or shows the open-circuit EMF.",
         ),
-        click.option(
-            "--z0",
-            callback=checks.bench_value("z0_ohm"),
-            help="Reference impedance of S-parameters, ohm [default: 50].",
-        ),
+        _value_option("--z0", "z0_ohm", "Reference impedance of S-parameters, ohm [default: 50]."),
         click.option(
             "--relative/--calibrated",
             default=None,
