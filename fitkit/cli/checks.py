@@ -93,6 +93,12 @@ def output_file(*suffixes: str):
         if value is None:
             return value
         path = Path(value)
+        if not path.name or path.name in (".", ".."):
+            raise click.BadParameter(
+                f"{value!r} is not a file name; fix: give one, e.g. 'result{suffixes[0]}'",
+                ctx=ctx,
+                param=param,
+            )
         if path.suffix.lower() not in suffixes:
             raise click.BadParameter(
                 f"{value!r} does not end in {' or '.join(suffixes)}; fix: name the file "
