@@ -246,7 +246,7 @@ FIT_OPTIONS = [
     ("plot_missing_folder", ("--plot", "{tmp}/no/such/fit.png"), ("--plot", "mkdir")),
     ("plot_wrong_suffix", ("--plot", "{tmp}/fit.txt"), ("--plot", ".png")),
     ("plot_empty_name", ("--plot", ""), ("--plot", "file name")),
-    ("plot_dot", ("--plot", "."), ("--plot", "file name")),
+    ("plot_dot", ("--plot", "."), ("--plot", "directory")),
     ("plot_exists", ("--plot", "{tmp}/old.png"), ("old.png", "--force")),
     ("setup_missing", ("--setup", "{tmp}/none.toml"), ("none.toml", "--setup")),
     ("setup_folder", ("--setup", "{tmp}"), ("--setup",)),
