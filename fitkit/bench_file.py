@@ -147,12 +147,10 @@ def load_bench_file(path: str | Path, *, for_sweep: str | Path | None = None) ->
 def _check_tables(data: dict, path: Path, prefix: str) -> None:
     """Every section a table of known keys; a misspelt key gets the nearest known one."""
     allowed = {"bench": list(_FIELDS), "known": list(_KNOWN_UNITS), "columns": None}
-    refuse_unknown_keys(
-        f"the setup file{' [' + prefix[:-1] + ']' if prefix else ''}",
-        data,
-        [*allowed, *([] if prefix else ["files"])],
-        path,
-    )
+    if prefix:  # a [files."PATTERN"] table: the sections only
+        refuse_unknown_keys(f"[{prefix[:-1]}]", data, list(allowed), path)
+    else:
+        refuse_unknown_keys("the setup file", data, [*allowed, "files"], path)
     for section, table in data.items():
         if not isinstance(table, dict):
             raise _not_a_table(prefix + section, table, path)
