@@ -76,15 +76,6 @@ def tidy_sweep(
             path=path,
             line=_line(lines, int(np.argmax(bad))),
         )
-    if freq_hz.size and (freq_hz <= 0).any():
-        i = int(np.argmax(freq_hz <= 0))
-        raise InputError(
-            f"frequency {freq_hz[i]:g} Hz is zero or negative",
-            remedy="delete the row, or check the frequency column and its unit",
-            path=path,
-            line=_line(lines, i),
-            column=freq_column,
-        )
     _refuse_beyond_readings(freq_hz, values, lines, path, freq_column)
     if freq_hz.size < 2:
         raise InputError(
@@ -161,15 +152,27 @@ MAX_READING = 1e100
 
 
 def _refuse_beyond_readings(freq_hz, values, lines, path, freq_column) -> None:
-    if freq_hz.size and freq_hz.max() > MAX_FREQ_HZ:
-        i = int(np.argmax(freq_hz > MAX_FREQ_HZ))
-        raise InputError(
-            f"frequency {freq_hz[i]:g} Hz is beyond any sweep instrument (above 10 THz)",
-            remedy="check the frequency column's unit (Hz, kHz, MHz, GHz) and the column",
-            path=path,
-            line=_line(lines, i),
-            column=freq_column,
-        )
+    for bad, message, remedy in (
+        (
+            freq_hz <= 0,
+            "frequency {:g} Hz is zero or negative",
+            "delete the row, or check the frequency column and its unit",
+        ),
+        (
+            freq_hz > MAX_FREQ_HZ,
+            "frequency {:g} Hz is beyond any sweep instrument (above 10 THz)",
+            "check the frequency column's unit (Hz, kHz, MHz, GHz) and the column",
+        ),
+    ):
+        if bad.any():
+            i = int(np.argmax(bad))
+            raise InputError(
+                message.format(freq_hz[i]),
+                remedy=remedy,
+                path=path,
+                line=_line(lines, i),
+                column=freq_column,
+            )
     size = np.abs(values)
     if not size.size:
         return
