@@ -1,10 +1,12 @@
-"""How fast read_sweep reads a large plain CSV sweep, as a ratio to pandas.read_csv.
+"""How fast read_sweep reads a large plain CSV sweep, as a ratio to numpy.loadtxt and
+pandas.read_csv.
 
 Writes two 1,000,000-row sweeps to a temporary directory: a magnitude-only one
 (frequency, linear gain) and a complex one (frequency, gain in dB, phase in degrees,
-which read_sweep turns into complex values). Times both readers on the same file in the
-same run (best of a few runs each) and measures each one's peak Python memory with
-tracemalloc against the size of the data: the file on disk and the float64 arrays in it.
+which read_sweep turns into complex values). Times the three readers on the same file in
+the same run (best of a few runs each; read_sweep also hashes the file, SHA-256) and
+measures the peak Python memory of read_sweep and pandas with tracemalloc against the
+size of the data: the file on disk and the float64 arrays in it.
 
 Run: python benchmarks/read_speed.py [rows]
 """
@@ -65,14 +67,23 @@ def measure(path: Path, rows: int, label: str) -> None:
     def theirs():
         return pd.read_csv(path)
 
+    def plain_numpy():
+        return np.loadtxt(path, delimiter=",", skiprows=1)
+
     assert ours().points == rows
-    t_pandas, t_ours = best_time(theirs), best_time(ours)
+    t_numpy, t_pandas, t_ours = best_time(plain_numpy), best_time(theirs), best_time(ours)
     m_pandas, m_ours = peak_bytes(theirs), peak_bytes(ours)
     print(
         f"{label}: {rows} rows, file {file_bytes / 1e6:.1f} MB, arrays {array_bytes / 1e6:.1f} MB"
     )
-    print(f"  pandas.read_csv {t_pandas:.3f} s, read_sweep {t_ours:.3f} s")
-    print(f"  time ratio read_sweep / pandas.read_csv: {t_ours / t_pandas:.2f}")
+    print(
+        f"  numpy.loadtxt {t_numpy:.3f} s, pandas.read_csv {t_pandas:.3f} s, "
+        f"read_sweep {t_ours:.3f} s"
+    )
+    print(
+        f"  time ratio read_sweep / numpy.loadtxt: {t_ours / t_numpy:.2f}; "
+        f"/ pandas.read_csv: {t_ours / t_pandas:.2f}"
+    )
     print(
         f"  peak memory: read_sweep {m_ours / 1e6:.1f} MB "
         f"({m_ours / file_bytes:.2f}x file, {m_ours / array_bytes:.2f}x arrays); "

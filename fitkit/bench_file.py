@@ -20,19 +20,26 @@ A small TOML file (``fitkit-setup.toml`` in the sweep's folder is found by itsel
 
     [columns]                        # handed to the sweep reader as column overrides
 
-Command-line values win over the file; the file wins over the defaults.
+    [files."scope-*.csv".bench]      # only for the files whose name matches the pattern
+    sense_resistor = "100"           # (layered over [bench]; also .known, .columns)
+
+Command-line values win over the file; the file wins over the defaults. A folder that
+holds two instruments' files says under ``[files."PATTERN"]`` which setup goes with
+which files; a file that two patterns match is refused.
 """
 
 from __future__ import annotations
 
+import fnmatch
 import math
 import re
 from pathlib import Path
 
-from fitkit.errors import InputError, SetupError
-from fitkit.setups import DEFAULT_BENCH, Setup
+from fitkit.errors import FitkitError, InputError, SetupError
+from fitkit.readers.columns import parse_overrides
+from fitkit.setups import BENCHES, DEFAULT_BENCH, DISPLAYS, REFERENCES, Setup
 from fitkit.sweep import Sweep
-from fitkit.tomlfile import read_toml
+from fitkit.tomlfile import read_toml, refuse_unknown_keys
 from fitkit.units import parse_quantity
 
 DEFAULT_NAME = "fitkit-setup.toml"
@@ -51,6 +58,32 @@ _FIELDS = {
     "relative": ("relative", None),
 }
 _KNOWN_UNITS = {"R": "ohm", "L": "H", "C": "F"}
+_SECTIONS = ("bench", "known", "columns")
+_CHOICES = {"bench": BENCHES, "reference": REFERENCES, "display": DISPLAYS}
+_EXAMPLES = {
+    "source_ohm": "50",
+    "sense_ohm": "47 or 4k7",
+    "feed_ohm": "10k",
+    "probe_f": "15p",
+    "amplitude_vrms": "'2 Vpp'",
+    "z0_ohm": "50",
+}
+#: Setup fields that must be above zero; the others (source resistance, probe
+#: capacitance) may be zero.
+_POSITIVE = {"sense_ohm", "feed_ohm", "z0_ohm", "amplitude_vrms"}
+#: Setup field -> the command-line option that sets it, for messages.
+OPTION_OF = {
+    "bench": "--bench",
+    "source_ohm": "--source-r",
+    "sense_ohm": "--sense-r",
+    "feed_ohm": "--feed-r",
+    "probe_f": "--probe-c",
+    "reference": "--ratio-ref",
+    "amplitude_vrms": "--amplitude",
+    "display": "--display",
+    "z0_ohm": "--z0",
+    "relative": "--relative",
+}
 
 
 def find_bench_file(sweep_path: str | Path, given: str | Path | None) -> Path | None:
@@ -61,13 +94,22 @@ def find_bench_file(sweep_path: str | Path, given: str | Path | None) -> Path | 
     return beside if beside.is_file() else None
 
 
-def load_bench_file(path: str | Path) -> dict:
+def load_bench_file(path: str | Path, *, for_sweep: str | Path | None = None) -> dict:
     """Read a setup file into ``{"bench": {...}, "known": {...}, "columns": {...}}``.
+
+    Parameters
+    ----------
+    path : str or Path
+        The setup file.
+    for_sweep : str or Path, optional
+        The sweep the setup is for: a ``[files."PATTERN"]`` table whose pattern matches
+        its file name is layered over the file's own tables.
 
     Raises
     ------
     InputError
-        When the file is missing, is not TOML, or holds keys fitkit does not know.
+        When the file is missing, is not TOML, holds keys fitkit does not know (the
+        message suggests the nearest known key), or when two patterns match the sweep.
     """
     p = Path(path)
     data = read_toml(
@@ -76,16 +118,73 @@ def load_bench_file(path: str | Path) -> dict:
         option="--setup",
         layout=f"see the layout of {DEFAULT_NAME} in docs/getting-started.md",
     )
-    unknown = set(data) - {"bench", "known", "columns"}
-    unknown |= set(data.get("bench", {})) - set(_FIELDS)
-    unknown |= set(data.get("known", {})) - set(_KNOWN_UNITS)
-    if unknown:
+    patterns = data.pop("files", {})
+    _check_tables(data, p, "")
+    if not isinstance(patterns, dict):
+        raise _not_a_table("files", patterns, p)
+    for pattern, tables in patterns.items():
+        if not isinstance(tables, dict):
+            raise _not_a_table(f'files."{pattern}"', tables, p)
+        _check_tables(tables, p, f'files."{pattern}".')
+    out = {k: dict(data.get(k, {})) for k in _SECTIONS}
+    if for_sweep is None:
+        return out
+    name = Path(for_sweep).name
+    matching = [pat for pat in patterns if fnmatch.fnmatchcase(name, pat)]
+    if len(matching) > 1:
         raise InputError(
-            f"unknown setting(s): {', '.join(sorted(unknown))}",
-            remedy="sections are [bench], [known], [columns]; bench keys: " + ", ".join(_FIELDS),
+            f"the sweep {name!r} matches more than one [files] pattern: "
+            + ", ".join(repr(m) for m in matching),
+            remedy="make the patterns exclusive, so each file has one setup",
             path=p,
         )
-    return {k: dict(data.get(k, {})) for k in ("bench", "known", "columns")}
+    for pattern in matching:
+        for section in _SECTIONS:
+            out[section].update(patterns[pattern].get(section, {}))
+    return out
+
+
+def _check_tables(data: dict, path: Path, prefix: str) -> None:
+    """Every section a table of known keys; a misspelt key gets the nearest known one."""
+    allowed = {"bench": list(_FIELDS), "known": list(_KNOWN_UNITS), "columns": None}
+    if prefix:  # a [files."PATTERN"] table: the sections only
+        refuse_unknown_keys(f"[{prefix[:-1]}]", data, list(allowed), path)
+    else:
+        refuse_unknown_keys("the setup file", data, [*allowed, "files"], path)
+    for section, table in data.items():
+        if not isinstance(table, dict):
+            raise _not_a_table(prefix + section, table, path)
+        if allowed[section] is not None:
+            refuse_unknown_keys(f"[{prefix}{section}]", table, allowed[section], path)
+    _check_values(data, path, prefix)
+
+
+def _check_values(data: dict, path: Path, prefix: str) -> None:
+    """Each value readable and in range, so a mistake is named with the setup file."""
+    parse_overrides(data.get("columns"), path)
+    try:
+        for key, raw in data.get("bench", {}).items():
+            where = f"[{prefix}bench] {key}"
+            name, unit = _FIELDS[key]
+            value = _convert(name, unit, raw, what=where)
+            if name in _CHOICES and value not in _CHOICES[name]:
+                raise SetupError(
+                    f"{where} = {raw!r} is not one of the choices",
+                    remedy=f"choose one of: {', '.join(_CHOICES[name])}",
+                )
+        for name, raw in data.get("known", {}).items():
+            _known_value(name, raw)
+    except FitkitError as exc:
+        raise InputError(exc.message, remedy=exc.remedy, path=path) from None
+
+
+def _not_a_table(name: str, value, path: Path) -> InputError:
+    return InputError(
+        f"[{name}] must be a table of settings, not {value!r}",
+        remedy=f"write it as a section, e.g. [{name}] on its own line with key = value "
+        "lines under it (see docs/getting-started.md)",
+        path=path,
+    )
 
 
 def parse_amplitude(text: str | float) -> float:
@@ -129,6 +228,13 @@ def _known_value(name: str, text: str) -> tuple:
     value, _, err = str(text).replace("\u00b1", "+-").partition("+-")
     v = parse_quantity(value, unit, what=f"known {name}")
     e = parse_quantity(err, unit, what=f"uncertainty of {name}") if err.strip() else 0.0
+    if not v > 0 or e < 0:
+        raise SetupError(
+            f"the known value {name}={text} is not a positive value with a non-negative "
+            "uncertainty",
+            remedy=f"write e.g. {name}=100{'u' if unit == 'H' else 'n' if unit == 'F' else ''}"
+            f"+-0.5{'u' if unit == 'H' else 'n' if unit == 'F' else ''} (--known or [known])",
+        )
     return v, e
 
 
@@ -141,13 +247,12 @@ def build_setup(sweep: Sweep, file_values: dict | None, overrides: dict) -> Setu
     fields: dict = {}
     for key, raw in (file_values or {}).items():
         name, unit = _FIELDS[key]
-        fields[name] = _convert(name, unit, raw)
-    for name, raw in overrides.items():
-        if raw is None:
-            continue
-        unit = next((u for n, u in _FIELDS.values() if n == name), None)
-        fields[name] = _convert(name, unit, raw)
+        fields[name] = _convert(name, unit, raw, what=f"{key} (setup file)")
+    given = {name: raw for name, raw in overrides.items() if raw is not None}
+    for name, raw in given.items():
+        fields[name] = check_override(name, raw)
     fields.setdefault("bench", DEFAULT_BENCH[sweep.kind])
+    _refuse_unused(given, fields["bench"], sweep)
     if sweep.kind in ("s11", "s21") and "z0_ohm" not in fields:
         ref = sweep.metadata.get("reference_ohm")
         if ref is not None:
@@ -160,20 +265,81 @@ def build_setup(sweep: Sweep, file_values: dict | None, overrides: dict) -> Setu
         raise
 
 
+def _refuse_unused(given: dict, bench: str, sweep: Sweep) -> None:
+    """An option that this bench or this sweep does not use is refused, not ignored."""
+    if "feed_ohm" in given and bench != "across":
+        raise SetupError(
+            f"--feed-r is for an across bench; this sweep is read as a {bench} bench",
+            remedy="drop --feed-r, or say --bench across if the scope read the voltage "
+            "across the circuit",
+            path=sweep.source,
+        )
+    if "amplitude_vrms" in given and sweep.kind != "volts":
+        raise SetupError(
+            f"--amplitude is for sweeps in volts; this sweep is a {sweep.kind}, whose scale "
+            "does not depend on the generator's level",
+            remedy="drop --amplitude, or say --measures volts if the values are volts",
+            path=sweep.source,
+        )
+
+
+def check_override(name: str, raw):
+    """A command-line bench value in SI, checked as the setup file's are.
+
+    Parameters
+    ----------
+    name : str
+        The Setup field (``sense_ohm``, ``amplitude_vrms``, ...).
+    raw : str or number
+        The value as typed.
+
+    Raises
+    ------
+    SetupError
+        Naming the option and the fix, when the value cannot be read or is out of range.
+    """
+    unit = next((u for n, u in _FIELDS.values() if n == name), None)
+    return _convert(name, unit, raw, what=OPTION_OF.get(name, name))
+
+
 def known_values(file_known: dict | None, cli_known: tuple) -> dict:
-    """Known component values from the setup file and ``--known`` (command line wins)."""
+    """Known component values from the setup file and ``--known`` (command line wins).
+
+    Raises
+    ------
+    SetupError
+        When a value cannot be read, or ``--known`` names one value twice.
+    """
     out = {name: _known_value(name, raw) for name, raw in (file_known or {}).items()}
-    out.update(parse_known(text) for text in cli_known)
+    typed = [parse_known(text) for text in cli_known]
+    names = [name for name, _ in typed]
+    twice = sorted({n for n in names if names.count(n) > 1})
+    if twice:
+        raise SetupError(
+            f"--known gives {', '.join(twice)} more than once",
+            remedy="give each of R, L, C once (with its uncertainty, e.g. L=220u+-1u)",
+        )
+    out.update(typed)
     return out
 
 
-def _convert(name: str, unit: str | None, raw):
+def _convert(name: str, unit: str | None, raw, *, what: str):
     if unit == "amplitude":
-        return parse_amplitude(raw)
-    if unit is not None:
-        return parse_quantity(raw, unit, what=name.replace("_", " "))
-    if name == "relative":
+        value = parse_amplitude(raw)
+    elif unit is not None:
+        value = parse_quantity(raw, unit, what=what)
+    elif name == "relative":
         if not isinstance(raw, bool):
-            raise SetupError(f"'relative' must be true or false, not {raw!r}")
+            raise SetupError(
+                f"{what} must be true or false, not {raw!r}", remedy="write relative = true"
+            )
         return raw
-    return str(raw)
+    else:
+        return str(raw)
+    low = "above 0" if name in _POSITIVE else "0 or more"
+    if not math.isfinite(value) or (value <= 0 if name in _POSITIVE else value < 0):
+        raise SetupError(
+            f"{what} = {raw!r} must be a finite value {low}",
+            remedy=f"give the value as measured, e.g. {_EXAMPLES[name]}",
+        )
+    return value

@@ -75,8 +75,8 @@ def parse_noise(text: str | None, sweep: Sweep) -> Noise:
     parts = [p.strip().lower() for p in str(text).split(",") if p.strip()]
     magnitude, phase = None, None
     for part in parts:
-        m = re.fullmatch(r"([0-9.]+(?:e[-+]?\d+)?)\s*(db|%|deg|rad)?", part)
-        if not m or float(m.group(1)) <= 0:
+        m = re.fullmatch(r"((?:\d+(?:\.\d*)?|\.\d+)(?:e[-+]?\d+)?)\s*(db|%|deg|rad)?", part)
+        if not m or not 0 < float(m.group(1)) < math.inf:
             raise SetupError(
                 f"cannot read the noise level {text!r}",
                 remedy="write e.g. '0.05dB', '0.05dB,0.3deg', '1%' or an additive '2e-3'",

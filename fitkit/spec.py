@@ -31,13 +31,14 @@ A value the fit did not determine is ``undecided (not determined)`` under either
 
 from __future__ import annotations
 
+import difflib
 import math
 from dataclasses import dataclass, field
 from pathlib import Path
 
 from fitkit.errors import FitkitError, InputError
 from fitkit.result import QUANTITIES
-from fitkit.tomlfile import read_toml
+from fitkit.tomlfile import read_toml, refuse_unknown_keys
 from fitkit.units import format_quantity, parse_quantity
 
 _QUANTITY_OF = {
@@ -160,6 +161,13 @@ def load_spec(path: str | Path) -> Spec:
         layout='write it as in docs/batch.md: [L] nominal = "220u" tolerance = "5%"',
     )
     rule = data.pop("rule", {})
+    if not isinstance(rule, dict):
+        raise InputError(
+            f"rule = {rule!r} must be a table",
+            remedy='write it as a section: [rule] on its own line, then decision = "guarded"',
+            path=p,
+        )
+    refuse_unknown_keys("[rule]", rule, ("decision", "coverage"), p)
     limits = tuple(_limit(name, table, p) for name, table in data.items())
     if not limits:
         raise InputError(
@@ -176,7 +184,11 @@ def load_spec(path: str | Path) -> Spec:
             path=p,
         )
     coverage = rule.get("coverage", 2.0)
-    if isinstance(coverage, bool) or not isinstance(coverage, (int, float)) or coverage < 0:
+    if (
+        isinstance(coverage, bool)
+        or not isinstance(coverage, (int, float))
+        or not 0 <= coverage < math.inf
+    ):
         raise InputError(
             f"[rule] coverage = {coverage!r} is not a non-negative number",
             remedy="write the coverage factor k as a number, e.g. coverage = 2",
@@ -187,18 +199,15 @@ def load_spec(path: str | Path) -> Spec:
 
 def _limit(name: str, table, path: Path) -> Limit:
     if name not in SPEC_NAMES or not isinstance(table, dict):
+        near = difflib.get_close_matches(name, list(SPEC_NAMES), n=1)
+        hint = f"did you mean [{near[0]}]? " if near and name not in SPEC_NAMES else ""
         raise InputError(
-            f"[{name}] is not a value fitkit can check",
-            remedy=f"use tables named {', '.join(SPEC_NAMES)} (and [rule])",
+            f"[{name}] is not a value fitkit can check"
+            + ("" if isinstance(table, dict) else f" (it is {table!r}, not a table)"),
+            remedy=f"{hint}use tables named {', '.join(SPEC_NAMES)} (and [rule])",
             path=path,
         )
-    unknown = set(table) - _LIMIT_KEYS
-    if unknown:
-        raise InputError(
-            f"[{name}] has unknown key(s) {', '.join(sorted(unknown))}",
-            remedy="use nominal with tolerance, or min and/or max",
-            path=path,
-        )
+    refuse_unknown_keys(f"[{name}]", table, sorted(_LIMIT_KEYS), path)
     quantity, unit = SPEC_NAMES[name]
     try:
         return _limit_values(name, quantity, unit, table)
@@ -235,11 +244,15 @@ def _number(text, unit: str, what: str) -> float:
     if unit:
         return parse_quantity(text, unit, what=what)
     try:
-        return float(text)
+        value = float(text)
     except (TypeError, ValueError):
+        value = math.nan
+    if not math.isfinite(value):
         raise InputError(
-            f"cannot read {what} {text!r} as a number", remedy="write a plain number, e.g. 50"
-        ) from None
+            f"cannot read {what} {text!r} as a finite number",
+            remedy="write a plain number, e.g. 50",
+        )
+    return value
 
 
 def decide(value: float | None, stderr: float | None, limit: Limit, spec: Spec) -> Verdict:

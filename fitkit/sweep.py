@@ -40,6 +40,9 @@ class Sweep:
         key,value line); shown to the user for confirmation, never trusted silently.
     notes : list of str
         What the reader did on the way (rows dropped, sorted, merged), to show the user.
+    sha256 : str or None
+        The SHA-256 of the file's bytes as the reader read them (None for a sweep made
+        in memory), so reports and batches need not read the file again.
     """
 
     freq_hz: np.ndarray
@@ -49,6 +52,7 @@ class Sweep:
     source: str = "<memory>"
     metadata: dict = field(default_factory=dict)
     notes: list = field(default_factory=list)
+    sha256: str | None = None
 
     def __post_init__(self) -> None:
         f = np.asarray(self.freq_hz, dtype=np.float64)

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import difflib
 import sys
 from pathlib import Path
 
@@ -28,9 +29,44 @@ def read_toml(path: str | Path, *, what: str, option: str, layout: str) -> dict:
         Where the user finds the expected layout, for the remedy.
     """
     p = Path(path)
+    if p.exists() and not p.is_file():
+        raise InputError(
+            f"the {what} is a folder or a pipe, not a file",
+            remedy=f"give {option} the path of a TOML file",
+            path=p,
+        )
     try:
         return tomllib.loads(p.read_text(encoding="utf-8"))
     except FileNotFoundError:
         raise InputError(f"no such {what}", remedy=f"check the {option} path", path=p) from None
-    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
+    except OSError as exc:
+        raise InputError(
+            f"cannot read the {what} ({exc.strerror})",
+            remedy="check that the file is readable by you (its permissions)",
+            path=p,
+        ) from None
+    except UnicodeDecodeError:
+        raise InputError(
+            f"the {what} is not UTF-8 text", remedy=f"save it as UTF-8 text; {layout}", path=p
+        ) from None
+    except tomllib.TOMLDecodeError as exc:
         raise InputError(f"not a valid TOML {what} ({exc})", remedy=layout, path=p) from None
+
+
+def refuse_unknown_keys(where: str, table: dict, allowed, path: str | Path) -> None:
+    """Refuse keys outside ``allowed``, suggesting the nearest known one (``decison``).
+
+    Raises
+    ------
+    InputError
+        Naming the file, where the keys are and the known keys.
+    """
+    unknown = sorted(set(table) - set(allowed))
+    if unknown:
+        near = difflib.get_close_matches(unknown[0], list(allowed), n=1)
+        hint = f"did you mean {near[0]!r} for {unknown[0]!r}? " if near else ""
+        raise InputError(
+            f"{where} has unknown key(s) {', '.join(unknown)}",
+            remedy=f"{hint}known keys: {', '.join(allowed)}",
+            path=path,
+        )

@@ -28,7 +28,7 @@ PREFIXES = {
 }
 _PRINT_PREFIXES = {-12: "p", -9: "n", -6: "u", -3: "m", 0: "", 3: "k", 6: "M", 9: "G"}
 
-_NUMBER = r"[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?"
+_NUMBER = r"[-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?"
 
 
 def parse_quantity(text: str | float | int, unit: str, *, what: str = "value") -> float:
@@ -57,7 +57,7 @@ def parse_quantity(text: str | float | int, unit: str, *, what: str = "value") -
     1.2e-11
     """
     if isinstance(text, (int, float)) and not isinstance(text, bool):
-        return float(text)
+        return _finite(float(text), text, unit, what)
     raw = str(text).strip()
     s = raw.replace(" ", "")
     for spelling in _unit_spellings(unit):
@@ -72,10 +72,33 @@ def parse_quantity(text: str | float | int, unit: str, *, what: str = "value") -
     m = re.fullmatch(rf"({_NUMBER})(meg|[pnumkKMG\u00b5\u03bc]?)", s)
     if not m:
         raise SetupError(
-            f"cannot read {what} {raw!r} as a number in {unit}",
-            remedy=f"write it as a number with an optional SI prefix, e.g. '4.7k' or '12p{unit}'",
+            f"cannot read {what} {raw!r} as a number" + (f" in {unit}" if unit else ""),
+            remedy=f"write it as a number with an optional SI prefix, e.g. {_example(unit)}",
         )
-    return float(m.group(1)) * PREFIXES[m.group(2)]
+    return _finite(float(m.group(1)) * PREFIXES[m.group(2)], raw, unit, what)
+
+
+def _finite(value: float, raw, unit: str, what: str) -> float:
+    if not math.isfinite(value):
+        raise SetupError(
+            f"{what} {raw!r} is not a finite number",
+            remedy=f"write a value a bench can have, e.g. {_example(unit)}",
+        )
+    return value
+
+
+_EXAMPLES = {
+    "ohm": "'47', '4.7k' or '4k7'",
+    "F": "'15p' or '1.5nF'",
+    "H": "'220u' or '1.2mH'",
+    "Hz": "'455k' or '1.6MHz'",
+    "V": "'2' or '500mV'",
+    "": "'2.5' or '1.5k'",
+}
+
+
+def _example(unit: str) -> str:
+    return _EXAMPLES.get(unit, f"'4.7k{unit}'")
 
 
 def _unit_spellings(unit: str) -> list[str]:

@@ -55,7 +55,7 @@ def fit_file(
         Any input, setup or fit failure, with a message for the user.
     """
     bench_path = find_bench_file(sweep_path, setup_path)
-    file = load_bench_file(bench_path) if bench_path else {}
+    file = load_bench_file(bench_path, for_sweep=sweep_path) if bench_path else {}
     sweep = read_sweep(sweep_path, columns=columns or file.get("columns") or None)
     setup = build_setup(sweep, file.get("bench"), overrides or {})
     known_map = known_values(file.get("known"), tuple(known))

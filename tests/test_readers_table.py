@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
+import hashlib
 import math
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -231,3 +233,10 @@ def test_bad_overrides_are_refused(tmp_path):
         read_sweep(path, columns={"freq": {"column": 1, "unit": "dB"}})
     with pytest.raises(InputError, match="no such file"):
         read_sweep(tmp_path / "missing.csv")
+
+
+def test_the_sweep_carries_the_files_sha256(tmp_path):
+    # checked against hashlib over the bytes on disk (the reference implementation)
+    path = write(tmp_path, "freq (Hz),gain (dB)\n1,2\n2,3\n")
+    expected = hashlib.sha256(Path(path).read_bytes()).hexdigest()
+    assert read_sweep(path).sha256 == expected

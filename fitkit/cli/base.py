@@ -69,7 +69,13 @@ def reports_errors(func):
 
 def plot_options(func):
     """``--plot FILE`` and ``--force`` (to replace an existing plot)."""
+    from fitkit.cli.checks import output_file  # (its imports wait for a command)
+
     func = click.option("--force", is_flag=True, help="Replace an existing plot file.")(func)
     return click.option(
-        "--plot", "plot_path", type=click.Path(dir_okay=False), help="Write a plot (PNG)."
+        "--plot",
+        "plot_path",
+        type=click.Path(dir_okay=False),
+        callback=output_file(".png", ".svg", ".pdf"),
+        help="Write a plot (PNG; .svg and .pdf also work).",
     )(func)

@@ -20,6 +20,7 @@ from fitkit.batch_output import (
     output_folder,
 )
 from fitkit.batch_results import load_results, summarise, write_results
+from fitkit.cli import checks
 from fitkit.cli.base import main, reports_errors
 from fitkit.cli.fit_cmd import bench_options, model_option, overrides_from_options
 from fitkit.errors import InputError
@@ -43,11 +44,14 @@ from fitkit.spec import RULES, load_spec
 @click.option(
     "--coverage",
     type=click.FloatRange(min=0),
+    callback=checks.finite,
     help="Guard band in standard uncertainties, k [default: 2].",
 )
 @bench_options
 @model_option
-@click.option("--noise", help="Stated noise for every sweep (as for 'fitkit fit').")
+@click.option(
+    "--noise", callback=checks.noise, help="Stated noise for every sweep (as for 'fitkit fit')."
+)
 @click.option(
     "--workers", type=click.IntRange(min=0), default=0, help="Worker processes; 0 = one per core."
 )

@@ -8,6 +8,7 @@ from pathlib import Path
 import click
 
 from fitkit.batch import fit_with
+from fitkit.cli import checks
 from fitkit.cli.base import main, reports_errors
 from fitkit.cli.batch_cmd import fit_settings
 from fitkit.cli.fit_cmd import bench_options
@@ -45,7 +46,13 @@ def _nominals(typed: tuple, spec_file: str | None) -> Side:
                 remedy=f"write e.g. --nominal C=2.2n; NAME one of {', '.join(SPEC_NAMES)}",
             )
         quantity, unit = SPEC_NAMES[name.strip()]
-        value = float(text) if not unit else parse_quantity(text, unit, what=f"nominal {name}")
+        value = parse_quantity(text, unit, what=f"--nominal {name}")
+        if not value > 0:
+            raise InputError(
+                f"--nominal {item!r}: a nominal value must be above 0",
+                remedy=f"write the value the part should have, e.g. --nominal {name}="
+                f"{'2.2n' if name == 'C' else '100'}",
+            )
         out[quantity] = (value, 0.0)
     where = ", ".join(([spec_file] if spec_file else []) + (["--nominal"] if typed else []))
     return Side(f"nominal values ({where})", out)
@@ -59,7 +66,9 @@ def _nominals(typed: tuple, spec_file: str | None) -> Side:
 )
 @click.option("--spec", "spec_file", type=click.Path(dir_okay=False), help="Nominals from a spec.")
 @bench_options
-@click.option("--noise", help="Stated noise for sweeps (as for 'fitkit fit').")
+@click.option(
+    "--noise", callback=checks.noise, help="Stated noise for sweeps (as for 'fitkit fit')."
+)
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object.")
 @reports_errors
 def drift_command(unit, reference, nominal, spec_file, noise, as_json, **opts):

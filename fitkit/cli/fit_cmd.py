@@ -7,11 +7,17 @@ import click
 from fitkit.bench_file import (
     DEFAULT_NAME,
 )
+from fitkit.cli import checks
 from fitkit.cli.base import main, plot_options, reports_errors
 from fitkit.cli.read_options import columns_from_options, read_options
 from fitkit.errors import InputError, refuse_overwrite
 from fitkit.setups import BENCHES, DISPLAYS, REFERENCES
 from fitkit.topologies import TOPOLOGIES
+
+
+def _value_option(flag: str, field: str, help_text: str):
+    """A bench value option, checked as the setup file's values are before any work."""
+    return click.option(flag, callback=checks.bench_value(field), help=help_text)
 
 
 def bench_options(func):
@@ -24,14 +30,17 @@ def bench_options(func):
             help=f"Setup file (TOML); default: {DEFAULT_NAME} beside the sweep, if any.",
         ),
         click.option("--bench", type=click.Choice(BENCHES), help="How the sweep was taken."),
-        click.option(
-            "--source-r",
-            help="Generator source resistance, ohm [default: 50].",
+        _value_option(
+            "--source-r", "source_ohm", "Generator source resistance, ohm [default: 50]."
         ),
-        click.option("--sense-r", help="Sense resistor of a divider, ohm (e.g. 47, 4k7)."),
-        click.option("--feed-r", help="Resistor feeding the circuit on an across bench, ohm."),
-        click.option(
-            "--probe-c", help="Probe/input capacitance across the sense resistor (e.g. 15p)."
+        _value_option("--sense-r", "sense_ohm", "Sense resistor of a divider, ohm (e.g. 47, 4k7)."),
+        _value_option(
+            "--feed-r", "feed_ohm", "Resistor feeding the circuit on an across bench, ohm."
+        ),
+        _value_option(
+            "--probe-c",
+            "probe_f",
+            "Probe/input capacitance across the sense resistor (e.g. 15p).",
         ),
         click.option(
             "--ratio-ref",
@@ -39,8 +48,10 @@ def bench_options(func):
             help="Divider ratio taken against the generator's output terminal "
             "[default] or its open-circuit EMF (source resistance then in the loop).",
         ),
-        click.option(
-            "--amplitude", help="Generator amplitude for volt sweeps: '2 Vpp', '0.7 Vrms'."
+        _value_option(
+            "--amplitude",
+            "amplitude_vrms",
+            "Generator amplitude for volt sweeps: '2 Vpp', '0.7 Vrms'.",
         ),
         click.option(
             "--display",
@@ -48,7 +59,7 @@ def bench_options(func):
             help="Generator display assumes a matched 50 ohm load (shows half the EMF) "
             "[default], or shows the open-circuit EMF.",
         ),
-        click.option("--z0", help="Reference impedance of S-parameters, ohm [default: 50]."),
+        _value_option("--z0", "z0_ohm", "Reference impedance of S-parameters, ohm [default: 50]."),
         click.option(
             "--relative/--calibrated",
             default=None,
@@ -58,6 +69,7 @@ def bench_options(func):
             "--known",
             multiple=True,
             metavar="NAME=VALUE",
+            callback=checks.known,
             help="A value measured otherwise, e.g. L=100u or L=100u+-0.5u (LCR meter).",
         ),
     ]
@@ -99,6 +111,7 @@ def overrides_from_options(opts: dict) -> dict:
 @read_options
 @click.option(
     "--noise",
+    callback=checks.noise,
     help="Noise model: auto [default: even or in proportion to the reading, as the data "
     "say; level estimated], additive, relative, or a stated level: '0.05dB', "
     "'0.05dB,0.3deg', '1%' or an additive '2e-3'.",

@@ -91,7 +91,13 @@ DEFAULT_SPAN_BW = 3.0
 )
 @click.option("--start", "start_text", help="First frequency of the sweep (with --stop).")
 @click.option("--stop", "stop_text", help="Last frequency of the sweep (with --start).")
-@click.option("--points", default=201, show_default=True, type=int, help="Points per sweep.")
+@click.option(
+    "--points",
+    default=201,
+    show_default=True,
+    type=click.IntRange(max=100_000),
+    help="Points per sweep.",
+)
 @click.option("--spacing", type=click.Choice(SPACINGS), default="linear", show_default=True)
 @click.option("--centre", "centre_text", help="Sweep centre frequency [default: the resonance].")
 @click.option(

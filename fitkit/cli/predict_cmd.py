@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import math
 from dataclasses import replace
 from pathlib import Path
 
@@ -170,6 +171,11 @@ def _typed_values(typed) -> dict:
     values = {}
     for text in typed:
         name, (value, err) = parse_known(text)
+        if name in values:
+            raise PredictionError(
+                f"--value gives {name} more than once",
+                remedy="give each of R, L, C once, e.g. --value R=6.8 --value L=220u --value C=1n",
+            )
         values[name] = ufloat(value, err) if err else value  # a zero error is no error
     missing = [n for n in COMPONENTS if n not in values]
     if missing:
@@ -201,12 +207,18 @@ def _range(text, unit: str, option: str) -> tuple | None:
     if text is None:
         return None
     lo, sep, hi = text.partition("..")
+    example = "20p..500p" if unit == "F" else "531k..1602k"
     if not sep:
         raise PredictionError(
-            f"cannot read {option} {text!r} as a range",
-            remedy=f"write LOW..HIGH, e.g. {'20p..500p' if unit == 'F' else '531k..1602k'}",
+            f"cannot read {option} {text!r} as a range", remedy=f"write LOW..HIGH, e.g. {example}"
         )
-    return parse_quantity(lo, unit, what=option), parse_quantity(hi, unit, what=option)
+    low, high = parse_quantity(lo, unit, what=option), parse_quantity(hi, unit, what=option)
+    if not 0 < low < high:
+        raise PredictionError(
+            f"{option} {text!r} is not a range from a lower to a higher value above 0",
+            remedy=f"give the smaller value first, e.g. {option} {example}",
+        )
+    return low, high
 
 
 def _has_offsets(opts) -> bool:
@@ -231,7 +243,23 @@ def _carrier_file_lines(path) -> list:
     try:
         text = Path(path).read_text(encoding="utf-8")
     except OSError as exc:
-        raise InputError(f"cannot read carriers ({exc.strerror})", path=path) from None
+        raise InputError(
+            f"cannot read carriers ({exc.strerror})",
+            remedy="check the --carrier-file path and that the file is readable",
+            path=path,
+        ) from None
+    except UnicodeDecodeError:
+        raise InputError(
+            "the carrier file is not UTF-8 text",
+            remedy="write one carrier per line as plain text (UTF-8), e.g. '1008k,+6'",
+            path=path,
+        ) from None
+    if "\x00" in text:
+        raise InputError(
+            "the carrier file holds binary data, not text",
+            remedy="write one carrier per line as plain text (UTF-8), e.g. '1008k,+6'",
+            path=path,
+        )
     out = []
     for number, line in enumerate(text.splitlines(), start=1):
         line = line.split("#", 1)[0].strip()
@@ -249,10 +277,12 @@ def _parse_carrier(text: str, wanted_hz: float | None, where: str) -> Carrier:
     try:
         level = float(level_text) if level_text else 0.0
     except ValueError:
+        level = math.nan
+    if not math.isfinite(level):
         raise PredictionError(
             f"cannot read the carrier level {level_text!r} ({where})",
             remedy="write the level in dB relative to the wanted carrier, e.g. +9k,+12",
-        ) from None
+        )
     label = f"offset {freq_text}" if offset else ""
     return Carrier(wanted_hz + freq if offset else freq, level, label)
 

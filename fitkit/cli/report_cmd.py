@@ -8,6 +8,7 @@ from pathlib import Path
 import click
 
 from fitkit.batch import RESULTS_JSON, fit_with
+from fitkit.cli import checks
 from fitkit.cli.base import main, reports_errors
 from fitkit.cli.batch_cmd import fit_settings
 from fitkit.cli.fit_cmd import bench_options
@@ -22,7 +23,12 @@ from fitkit.spec import load_spec
 @main.command("report")
 @click.argument("source", type=click.Path())
 @click.option(
-    "--out", "out_file", required=True, type=click.Path(dir_okay=False), help="HTML file to write."
+    "--out",
+    "out_file",
+    required=True,
+    type=click.Path(dir_okay=False),
+    callback=checks.output_file(".html", ".htm"),
+    help="HTML file to write.",
 )
 @click.option("--spec", "spec_file", type=click.Path(dir_okay=False), help="Judge the values.")
 @click.option(
@@ -31,7 +37,7 @@ from fitkit.spec import load_spec
     help="A drift page: compare SOURCE with this reference (an earlier fit or a sweep).",
 )
 @bench_options
-@click.option("--noise", help="Stated noise (as for 'fitkit fit').")
+@click.option("--noise", callback=checks.noise, help="Stated noise (as for 'fitkit fit').")
 @click.option("--force", is_flag=True, help="Replace an existing report file.")
 @reports_errors
 def report_command(source, out_file, spec_file, reference, noise, force, **opts):

@@ -97,8 +97,20 @@ def inspect_sweep(
         As :func:`read_sweep`.
     """
     p = Path(path)
-    if not p.is_file():
+    if p.is_dir():
+        raise InputError(
+            "this is a folder, not a sweep file",
+            remedy="name a file in it, or fit the whole folder with 'fitkit batch'",
+            path=p,
+        )
+    if not p.exists():
         raise InputError("no such file", remedy="check the path to the sweep file", path=p)
+    if not p.is_file():
+        raise InputError(
+            "this is not a regular file (a pipe or a device?)",
+            remedy="save the sweep to a file first, then read that file",
+            path=p,
+        )
     if looks_like_touchstone(p):
         if parameter is None and columns and columns.get("kind") in ("s11", "s21"):
             parameter = columns["kind"]

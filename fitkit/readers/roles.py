@@ -14,6 +14,9 @@ from fitkit.readers.columns import Column, Override, find_column, guess_role
 from fitkit.readers.units import Unit, lookup_unit
 
 _MEASURED = ("mag", "phase", "real", "imag")
+#: Words naming the generator's side of the bench: a level column there (a scope's
+#: channel 1 on the generator, "CH1 Amplitude") is the drive, not the response.
+_DRIVE_WORDS = {"ch1", "ch01", "in", "input", "vin", "generator", "gen", "source", "drive"}
 _ROLE_WORDS = {
     "freq": "frequency",
     "mag": "magnitude",
@@ -163,11 +166,15 @@ def _pick_measured(chosen, free, kind_asked, notes, path, line) -> None:
         wanted = ("real", "imag")
         if "mag" in by_role:
             notes.append("read the real and imaginary parts (the magnitude columns also given)")
+    elif ("real" in by_role or "imag" in by_role) and "mag" not in by_role:
+        wanted = ("real", "imag")  # one part alone: refused below, naming the other
     else:
         wanted = ("mag", "phase")
     for role in wanted:
         if role in chosen or role not in by_role:
             continue
+        if len(by_role[role]) > 1 and role == "mag":
+            by_role[role] = _response_columns(by_role[role], notes)
         if len(by_role[role]) > 1:
             _competing(role, by_role[role], path, line)
         chosen[role] = by_role[role][0]
@@ -194,6 +201,21 @@ def _pick_measured(chosen, free, kind_asked, notes, path, line) -> None:
             path=path,
             line=line,
         )
+
+
+def _response_columns(cols: list[Column], notes: list) -> list[Column]:
+    """Of several magnitude columns, the one ratio (dB or linear) beside levels in volts:
+    a scope's export gives the gain with the channels' levels (``CH1 Amplitude``, the
+    generator's drive). Two volt columns (Vin, Vout) stay competing: the user decides."""
+    ratios = [c for c in cols if c.unit is not None and c.unit.dimension == "level"]
+    volts = [c for c in cols if c.unit is not None and c.unit.dimension == "volt"]
+    if len(ratios) != 1 or len(ratios) + len(volts) != len(cols):
+        return cols
+    for col in volts:
+        drive = bool(col.words & _DRIVE_WORDS) or {"channel", "1"} <= col.words
+        what = "the generator's level" if drive else "a level, not the ratio"
+        notes.append(f"column {col.name!r} read as {what}; the magnitude is {ratios[0].name!r}")
+    return ratios
 
 
 def _competing(role: str, cols: list[Column], path: Path, line) -> None:

@@ -20,10 +20,27 @@ from fitkit.errors import InputError
 from fitkit.readers.columns import describe_column, parse_overrides
 from fitkit.readers.layout import ColumnInfo, Reading
 from fitkit.readers.roles import Plan, plan_columns
-from fitkit.readers.text import read_all, read_head
-from fitkit.readers.tidy import line_list, tidy_sweep
+from fitkit.readers.text import file_sha256, read_all, read_head
+from fitkit.readers.tidy import line_list, refuse_infinite, tidy_sweep
+from fitkit.readers.units import lookup_unit
 
-_NUMBER = re.compile(r"[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?|[-+]?(?:nan|inf)", re.I)
+_NUMBER = re.compile(r"[-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?|[-+]?(?:nan|inf)", re.I)
+#: "1,012,500.0": thousands grouped by commas (a decimal point file only).
+_GROUPED = re.compile(r"[-+]?\d{1,3}(?:,\d{3})+(?:\.\d*)?")
+_GROUP_COMMA = re.compile(r"(?<=\d),(?=\d{3}(?:[.,]|$))")
+#: "1.119k", "681.8m", "4.7 u": engineering notation with an SI prefix.
+_PREFIX_EXPONENTS = {
+    "p": -12,
+    "n": -9,
+    "u": -6,
+    "\u00b5": -6,
+    "\u03bc": -6,
+    "m": -3,
+    "k": 3,
+    "M": 6,
+    "G": 9,
+}
+_PREFIXED = re.compile(r"([-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?)\s?([pnu\u00b5\u03bcmkMG])")
 _COMMENT = ("#", "!", "//", ";", "%")
 #: Candidate (delimiter, decimal mark); None is a run of spaces or tabs.
 _DIALECTS = (("\t", "."), (";", "."), (",", "."), (None, "."), ("\t", ","), (";", ","), (None, ","))
@@ -44,15 +61,22 @@ class Dialect:
     fields: int
     header: list = field(default_factory=list)
     metadata: dict = field(default_factory=dict)
+    units_line: int | None = None  # 1-based line of a row of units under the header
+    text_cells: bool = False  # numbers written with thousands commas or SI prefixes
 
     def describe(self) -> dict:
-        return {
+        details = {
             "delimiter": _DELIMITER_NAMES[self.delimiter],
             "decimal mark": "comma" if self.decimal == "," else "point",
             "encoding": self.encoding,
             "header": f"line {self.header_line}" if self.header_line else "none",
-            "data from": f"line {self.first_data_line}",
         }
+        if self.units_line:
+            details["units"] = f"line {self.units_line}"
+        if self.text_cells:
+            details["numbers"] = "with thousands commas or SI prefixes"
+        details["data from"] = f"line {self.first_data_line}"
+        return details
 
 
 def read_table(
@@ -86,6 +110,8 @@ def read_table(
     plan = plan_columns(header, overrides, kind_asked, path, dialect.header_line)
     notes = list(head.notes) + plan.notes
     cells, line_numbers = _parse_rows(path, dialect, plan, notes)
+    names = {role: col.name or col.position for role, (col, _) in plan.roles.items()}
+    refuse_infinite(cells, line_numbers, names, path=path)
     freq, values = plan.values(cells)
     del cells  # frees the parser's block before the clean-up makes its own arrays
     freq_col = plan.roles["freq"][0]
@@ -100,6 +126,7 @@ def read_table(
         notes=notes,
         duplicates=duplicates,
         freq_column=freq_col.name or freq_col.position,
+        sha256=file_sha256(path),
     )
     used = {col.position: (role, unit.text) for role, (col, unit) in plan.roles.items()}
     infos = [ColumnInfo(c.position, c.name, *used.get(c.position, (None, None))) for c in header]
@@ -109,16 +136,60 @@ def read_table(
 def _split(line: str, delimiter: str | None) -> list[str]:
     if delimiter is None:
         return line.split()
-    return [c.strip() for c in next(csv.reader([line], delimiter=delimiter))]
+    try:
+        return [c.strip() for c in next(csv.reader([line], delimiter=delimiter))]
+    except csv.Error:  # a cell longer than the csv module allows: no table row
+        return [line]
+
+
+def _cell_form(cell: str, decimal: str) -> str | None:
+    """``"plain"``, ``"grouped"`` (thousands commas), ``"prefixed"`` (SI prefix) or None."""
+    cell = cell.strip().strip('"').strip()
+    if len(cell) > 64:  # no instrument writes a number this long
+        return None
+    if decimal == ",":
+        if "." in cell:
+            return None
+        cell = cell.replace(",", ".")
+    if _NUMBER.fullmatch(cell):
+        return "plain"
+    if decimal == "." and _GROUPED.fullmatch(cell):
+        return "grouped"
+    if _PREFIXED.fullmatch(cell):
+        return "prefixed"
+    return None
 
 
 def _is_number(cell: str, decimal: str) -> bool:
-    cell = cell.strip().strip('"')
+    return _cell_form(cell, decimal) is not None
+
+
+def to_numbers(column: pd.Series, decimal: str) -> pd.Series:
+    """Cells as text to float: decimal comma, thousands commas, SI prefixes; NaN if none.
+
+    Examples
+    --------
+    >>> to_numbers(pd.Series(["1.119k", '1,012,500.0', "681.8m", "x"]), ".").tolist()
+    [1119.0, 1012500.0, 0.6818, nan]
+    """
+    column = column.str.strip().str.strip('"').str.strip()
     if decimal == ",":
-        if "." in cell:
-            return False
-        cell = cell.replace(",", ".")
-    return bool(_NUMBER.fullmatch(cell))
+        column = column.str.replace(",", ".", regex=False)
+    else:
+        column = column.str.replace(_GROUP_COMMA, "", regex=True)
+    numbers = pd.to_numeric(column, errors="coerce")
+    parts = column.str.fullmatch(_PREFIXED.pattern)
+    if parts.any():
+        found = column[parts.fillna(False)].str.extract(_PREFIXED.pattern)
+        exponent = found[1].map(_PREFIX_EXPONENTS).to_numpy()
+        value = pd.to_numeric(found[0]).to_numpy()
+        # one correctly rounded step from the cell: 681.8m is 681.8 / 1000 exactly rounded
+        scaled = np.where(
+            exponent > 0, value * 10.0 ** np.abs(exponent), value / 10.0 ** np.abs(exponent)
+        )
+        scaled = pd.Series(scaled, index=found.index)
+        numbers = numbers.where(~parts.fillna(False), scaled)
+    return numbers
 
 
 def _numeric_fields(line: str, delimiter: str | None, decimal: str) -> int:
@@ -153,8 +224,21 @@ def _sniff(lines: list[str], encoding: str, complete: bool, path: Path) -> Diale
     first = next(i for i, ln in enumerate(lines) if _numeric_fields(ln, delimiter, decimal))
     fields = _numeric_fields(lines[first], delimiter, decimal)
     header_index, names = _find_header(lines, first, delimiter, fields)
+    units_index = None
+    if header_index is not None and _all_units(names):
+        above, above_names = _find_header(lines, header_index, delimiter, fields)
+        if above is not None and not _all_units(above_names):
+            units_index, header_index = header_index, above
+            names = [f"{n} ({u})" if u.strip() else n for n, u in zip(above_names, names)]
     header = [describe_column(i + 1, n) for i, n in enumerate(names)]
     preamble = lines[: header_index if header_index is not None else first]
+    forms = {
+        _cell_form(cell, decimal)
+        for ln in lines[first:_SNIFF_LINES]
+        if _numeric_fields(ln, delimiter, decimal)
+        for cell in _split(ln, delimiter)
+        if cell
+    }
     return Dialect(
         delimiter=delimiter,
         decimal=decimal,
@@ -164,7 +248,15 @@ def _sniff(lines: list[str], encoding: str, complete: bool, path: Path) -> Diale
         fields=max(fields, len(_split(lines[first], delimiter))),
         header=header,
         metadata=_metadata(preamble, delimiter),
+        units_line=None if units_index is None else units_index + 1,
+        text_cells=bool(forms & {"grouped", "prefixed"}),
     )
+
+
+def _all_units(cells: list[str]) -> bool:
+    """A row of units under the header: every non-empty cell a unit, e.g. 'Hz;Vpp;dB;°'."""
+    given = [c.strip().strip("()[]") for c in cells if c.strip()]
+    return bool(given) and all(lookup_unit(c) is not None for c in given)
 
 
 def _find_header(lines: list[str], first: int, delimiter, fields: int):
@@ -229,40 +321,50 @@ def _parse_rows(path: Path, dialect: Dialect, plan: Plan, notes: list):
         skip_blank_lines=False,
         engine="c",  # its float parser skips the spaces around a number itself
     )
-    encoding = dialect.encoding
-    for attempt in ("fast", "retry"):
+    if dialect.text_cells:
+        return _parse_rows_slowly(path, dialect, plan, wanted, kwargs, notes)
+    try:
+        frame = _read_csv(
+            path, dialect, notes, dtype=dict.fromkeys(wanted.values(), np.float64), **kwargs
+        )
+    except ValueError:
+        return _parse_rows_slowly(path, dialect, plan, wanted, kwargs, notes)
+    cells = {role: frame[i].to_numpy(dtype=np.float64) for role, i in wanted.items()}
+    return cells, dialect.first_data_line
+
+
+def _read_csv(path: Path, dialect: Dialect, notes: list, **kwargs) -> pd.DataFrame:
+    """pandas.read_csv with the sniffed encoding; a UTF-8 file that turns out to be
+    Latin-1 past its head is read again (Latin-1 decodes any byte); a ragged row or a
+    broken quote is refused with its line."""
+    try:
         try:
-            frame = pd.read_csv(
-                path,
-                encoding=encoding,
-                dtype={i: np.float64 for i in wanted.values()},
-                **kwargs,
-            )
-            break
+            return pd.read_csv(path, encoding=dialect.encoding, **kwargs)
         except UnicodeDecodeError:
-            if attempt == "retry" or encoding != "utf-8":
+            if dialect.encoding != "utf-8":
                 raise InputError(
-                    f"the file is not valid {encoding} text past its first lines",
+                    f"the file is not valid {dialect.encoding} text past its first lines",
                     remedy="export the sweep again as plain text (UTF-8)",
                     path=path,
                 ) from None
-            encoding = dialect.encoding = "latin-1"
+            dialect.encoding = "latin-1"
             notes.append("not valid UTF-8; decoded as Latin-1")
-        except pd.errors.ParserError as exc:
-            raise _ragged(exc, path, dialect) from None
-        except ValueError:
-            return _parse_rows_slowly(path, dialect, plan, wanted, kwargs, notes)
-    cells = {role: frame[i].to_numpy(dtype=np.float64) for role, i in wanted.items()}
-    return cells, dialect.first_data_line
+            return pd.read_csv(path, encoding=dialect.encoding, **kwargs)
+    except pd.errors.ParserError as exc:
+        raise _ragged(exc, path, dialect) from None
 
 
 def _ragged(exc: Exception, path: Path, dialect: Dialect) -> InputError:
     m = re.search(r"Expected (\d+) fields in line (\d+), saw (\d+)", str(exc))
     if not m:
+        quote = re.search(r"EOF inside string starting at row (\d+)", str(exc))
         return InputError(
-            f"the table cannot be parsed ({exc})",
-            remedy="check the rows for stray delimiters or quotes",
+            'a quote (") is opened and never closed'
+            if quote
+            else "the rows cannot be split into cells",
+            remedy="repair the row: remove the stray quote or delimiter, or delete the row",
             path=path,
+            line=dialect.first_data_line + int(quote.group(1)) - 1 if quote else None,
         )
     return InputError(
         f"the row has {m.group(3)} cells where the table has {m.group(1)}",
@@ -274,7 +376,7 @@ def _ragged(exc: Exception, path: Path, dialect: Dialect) -> InputError:
 
 def _parse_rows_slowly(path, dialect, plan, wanted, kwargs, notes):
     """Rows with text in a number column: skip repeated headers and comments, else refuse."""
-    frame = pd.read_csv(path, encoding=dialect.encoding, dtype=str, skipinitialspace=True, **kwargs)
+    frame = _read_csv(path, dialect, notes, dtype=str, skipinitialspace=True, **kwargs)
     raw = _LINE_BREAK.split(read_all(path, dialect.encoding))
     first = dialect.first_data_line
     header_text = raw[dialect.header_line - 1].strip() if dialect.header_line else None
@@ -282,10 +384,9 @@ def _parse_rows_slowly(path, dialect, plan, wanted, kwargs, notes):
     text_rows = np.zeros(len(frame), dtype=bool)
     for role, i in wanted.items():
         column = frame[i]
-        if dialect.decimal == ",":
-            column = column.str.replace(",", ".", regex=False)
-        numbers = pd.to_numeric(column, errors="coerce")
-        text_rows |= (column.notna() & numbers.isna()).to_numpy()
+        numbers = to_numbers(column, dialect.decimal)
+        not_nan = ~column.str.strip().str.lower().isin(("nan", "-nan", "+nan"))
+        text_rows |= (column.notna() & numbers.isna() & not_nan).to_numpy()
         cells[role] = np.array(numbers, dtype=np.float64)
     skipped_comments, skipped_headers = [], []
     for row in np.flatnonzero(text_rows):

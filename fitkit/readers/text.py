@@ -8,6 +8,7 @@ decodes any byte, so it is tried last and said in the notes.
 from __future__ import annotations
 
 import codecs
+import hashlib
 import re
 from dataclasses import dataclass
 from pathlib import Path
@@ -16,6 +17,10 @@ from fitkit.errors import InputError
 
 #: How much of a file is read to sniff its layout; the bulk is parsed by pandas.
 HEAD_BYTES = 256 * 1024
+#: A head is read further (doubling) until it holds this many lines or this many bytes,
+#: so a long comment or metadata line before the table does not hide the table.
+_HEAD_LINES = 40
+_HEAD_LIMIT = 64 * 1024 * 1024
 _CONTROL = re.compile(r"[\x01-\x08\x0e-\x1f]")
 
 
@@ -42,16 +47,31 @@ class FileText:
     notes: list
 
 
-def read_head(path: Path, size: int = HEAD_BYTES) -> FileText:
+def read_head(path: Path, size: int = HEAD_BYTES, *, grow: bool = True) -> FileText:
     """Decode the first ``size`` bytes of ``path`` and decide its encoding.
+
+    With ``grow``, a head of few lines (a very long line before the table) is read
+    further until it holds enough lines to sniff the layout.
 
     Raises
     ------
     InputError
         When the file is empty or holds binary data rather than text.
     """
-    with open(path, "rb") as fh:
-        raw = fh.read(size + 1)
+    try:
+        with open(path, "rb") as fh:
+            raw = fh.read(size + 1)
+            while (
+                grow and len(raw) > size and size < _HEAD_LIMIT and raw.count(b"\n") < _HEAD_LINES
+            ):
+                raw += fh.read(size)
+                size *= 2
+    except OSError as exc:
+        raise InputError(
+            f"cannot read the file ({exc.strerror})",
+            remedy="check that the file is readable by you (its permissions) and not in use",
+            path=path,
+        ) from None
     complete = len(raw) <= size
     raw = raw[:size]
     if not raw.strip(b" \t\r\n\x00\xef\xbb\xbf\xff\xfe"):
@@ -102,6 +122,15 @@ def read_all(path: Path, encoding: str) -> str:
         ) from None
     _refuse_binary(text, path)
     return text
+
+
+def file_sha256(path: Path) -> str:
+    """The SHA-256 of the file's bytes, read in blocks (the file is not held in memory)."""
+    digest = hashlib.sha256()
+    with open(path, "rb") as fh:
+        for block in iter(lambda: fh.read(1 << 20), b""):
+            digest.update(block)
+    return digest.hexdigest()
 
 
 def _decode(raw: bytes, encoding: str, complete: bool) -> str | None:

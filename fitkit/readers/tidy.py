@@ -34,6 +34,7 @@ def tidy_sweep(
     notes: list,
     duplicates: str = "average",
     freq_column: str | int | None = None,
+    sha256: str | None = None,
 ) -> Sweep:
     """Make a :class:`Sweep` from parsed columns, cleaning up and saying what was done.
 
@@ -46,6 +47,8 @@ def tidy_sweep(
         row's line when the rows are consecutive lines (saves an array per row).
     duplicates : {"average", "refuse"}
         What to do with a frequency written more than once.
+    sha256 : str, optional
+        The file's SHA-256, carried on the Sweep.
 
     Raises
     ------
@@ -58,8 +61,9 @@ def tidy_sweep(
     if isinstance(lines, (int, np.integer)) and (empty.any() or freq_hz.size < 2):
         lines = np.arange(freq_hz.size) + lines
     if empty.any():
-        kept_after = np.flatnonzero(~empty)
-        last = kept_after[-1] if kept_after.size else -1
+        # blank lines at the end of a file go quietly; any row with a number in it is said
+        written = np.flatnonzero(~(np.isnan(freq_hz) & np.isnan(values)))
+        last = written[-1] if written.size else -1
         inner = np.flatnonzero(empty[: last + 1])
         if inner.size:
             notes.append(f"dropped {inner.size} blank/NaN row(s) ({line_list(lines[inner])})")
@@ -72,15 +76,7 @@ def tidy_sweep(
             path=path,
             line=_line(lines, int(np.argmax(bad))),
         )
-    if freq_hz.size and (freq_hz <= 0).any():
-        i = int(np.argmax(freq_hz <= 0))
-        raise InputError(
-            f"frequency {freq_hz[i]:g} Hz is zero or negative",
-            remedy="delete the row, or check the frequency column and its unit",
-            path=path,
-            line=_line(lines, i),
-            column=freq_column,
-        )
+    _refuse_beyond_readings(freq_hz, values, lines, path, freq_column)
     if freq_hz.size < 2:
         raise InputError(
             f"the file holds {freq_hz.size} point(s) of data",
@@ -110,7 +106,86 @@ def tidy_sweep(
         source=str(path),
         metadata=dict(metadata),
         notes=notes,
+        sha256=sha256,
     )
+
+
+def refuse_infinite(
+    cells: dict[str, np.ndarray], lines: np.ndarray | int, columns: dict, *, path: Path
+) -> None:
+    """Refuse a cell written as ``inf`` or ``-inf`` before any conversion can hide it
+    (``-inf`` dB would become a magnitude of 0).
+
+    Parameters
+    ----------
+    cells : dict
+        Role to the column's parsed numbers.
+    lines : ndarray of int, or int
+        The file line of each row, or the first row's line.
+    columns : dict
+        Role to the column's name or position, for the message.
+
+    Raises
+    ------
+    InputError
+        Naming the line, the column and the fix.
+    """
+    for role, numbers in cells.items():
+        bad = np.isinf(numbers)
+        if bad.any():
+            row = int(np.argmax(bad))
+            raise InputError(
+                f"the cell holds an infinite value, {numbers[row]:g} (an overload or a missing "
+                "reading?)",
+                remedy="repair the cell or delete the row; fitkit does not guess a value",
+                path=path,
+                line=_line(lines, row),
+                column=columns[role],
+            )
+
+
+#: No sweep instrument reaches 10 THz, and no reading in SI (volts, ohm, a ratio) comes
+#: near 1e100; beyond these a unit or a column is wrong, and the fit's arithmetic would
+#: overflow (its squares pass 1e308).
+MAX_FREQ_HZ = 1e13
+MAX_READING = 1e100
+
+
+def _refuse_beyond_readings(freq_hz, values, lines, path, freq_column) -> None:
+    for bad, message, remedy in (
+        (
+            freq_hz <= 0,
+            "frequency {:g} Hz is zero or negative",
+            "delete the row, or check the frequency column and its unit",
+        ),
+        (
+            freq_hz > MAX_FREQ_HZ,
+            "frequency {:g} Hz is beyond any sweep instrument (above 10 THz)",
+            "check the frequency column's unit (Hz, kHz, MHz, GHz) and the column",
+        ),
+    ):
+        if bad.any():
+            i = int(np.argmax(bad))
+            raise InputError(
+                message.format(freq_hz[i]),
+                remedy=remedy,
+                path=path,
+                line=_line(lines, i),
+                column=freq_column,
+            )
+    size = np.abs(values)
+    if not size.size:
+        return
+    largest = float(size.max())
+    if largest > MAX_READING or 0 < largest < 1 / MAX_READING:
+        what = "beyond 1e100" if largest > MAX_READING else "the largest, and all are below 1e-100"
+        raise InputError(
+            f"the reading {largest:g} is {what}: far outside anything an instrument writes",
+            remedy="check the measured column's unit and that the right column is read "
+            "(--column mag=NAME:UNIT)",
+            path=path,
+            line=_line(lines, int(np.argmax(size))),
+        )
 
 
 def _line(lines: np.ndarray | int, row: int) -> int:

@@ -24,7 +24,7 @@ import numpy as np
 
 from fitkit.errors import InputError
 from fitkit.readers.layout import ColumnInfo, Reading
-from fitkit.readers.text import read_all, read_head
+from fitkit.readers.text import file_sha256, read_all, read_head
 from fitkit.readers.tidy import tidy_sweep
 
 _FREQ_UNITS = {"hz": 1.0, "khz": 1e3, "mhz": 1e6, "ghz": 1e9}
@@ -65,7 +65,7 @@ def looks_like_touchstone(path: Path) -> bool:
     if re.fullmatch(r"\.(s\d+p|ts)", path.suffix.lower()):
         return True
     try:
-        head = read_head(path, 4096).head
+        head = read_head(path, 4096, grow=False).head
     except InputError:
         return False
     for line in head.splitlines():
@@ -146,6 +146,7 @@ def read_touchstone(path: Path, *, parameter: str | None = None) -> Reading:
         notes=notes,
         duplicates="refuse",
         freq_column=1,
+        sha256=file_sha256(path),
     )
     first, second = _FIRST_PART[opts.format], _SECOND_PART[opts.format]
     unit = {"hz": "Hz", "khz": "kHz", "mhz": "MHz", "ghz": "GHz"}[opts.unit]
@@ -210,7 +211,18 @@ def _parse(lines: list[str], path: Path) -> _File:
                 path=path,
                 line=n,
             )
-        if len(state.numbers) % _record_size(state.ports, state.matrix) == 0:
+        size = _record_size(state.ports, state.matrix)
+        if len(values) > size:
+            found = {9: "two-port", 3: "one-port"}.get(len(values), f"{len(values)}-number")
+            raise InputError(
+                f"the line holds {len(values)} numbers where a {state.ports}-port record "
+                f"holds {size} ({found} data in a {path.suffix or 'Touchstone'} file?)",
+                remedy="name the file after its ports (.s1p: 3 numbers a line, .s2p: 9), "
+                "or export it again",
+                path=path,
+                line=n,
+            )
+        if len(state.numbers) % size == 0:
             if previous is not None and values[0] <= previous:
                 if v2 or state.ports != 2:
                     raise InputError(
