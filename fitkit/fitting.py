@@ -18,9 +18,7 @@ The steps, each in its own module:
 from __future__ import annotations
 
 import dataclasses
-import hashlib
 import math
-from pathlib import Path
 
 import numpy as np
 from uncertainties import correlated_values, covariance_matrix, ufloat
@@ -344,9 +342,8 @@ def _sweep_info(problem: FitProblem) -> dict:
         "notes": list(sweep.notes),
         "metadata": {str(k): str(v) for k, v in sweep.metadata.items()},
     }
-    path = Path(sweep.source)
-    if path.is_file():
-        info["sha256"] = hashlib.sha256(path.read_bytes()).hexdigest()
+    if getattr(sweep, "sha256", None):  # hashed once, by the reader
+        info["sha256"] = sweep.sha256
     return info
 
 

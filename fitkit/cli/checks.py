@@ -57,7 +57,7 @@ noise = _calling(
 
 
 def positive(unit: str):
-    """A callback for a value with an SI prefix that must be above 0 (``--skin-above``)."""
+    """A callback for a value with an SI prefix that must be above 0 (e.g. ``--c-self``)."""
 
     def check(ctx, param, value):
         if value is None:
