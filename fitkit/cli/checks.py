@@ -16,7 +16,6 @@ from fitkit.bench_file import check_override, known_values
 from fitkit.errors import FitkitError
 from fitkit.noise import parse_noise
 from fitkit.sweep import Sweep
-from fitkit.units import parse_quantity
 
 #: A stand-in sweep with phase, so that every accepted form of --noise can be checked.
 _PROBE = Sweep([1.0, 2.0], [1.0 + 0.0j, 1.0 + 0.0j], "ratio", source="--noise")
@@ -54,25 +53,6 @@ known = _calling(
 noise = _calling(
     lambda value: parse_noise(value, _PROBE), "``--noise``: a form ``fitkit fit --help`` lists."
 )
-
-
-def positive(unit: str):
-    """A callback for a value with an SI prefix that must be above 0 (e.g. ``--c-self``)."""
-
-    def check(ctx, param, value):
-        if value is None:
-            return value
-        try:
-            number = parse_quantity(value, unit, what=param.opts[0])
-        except FitkitError as exc:
-            raise _bad(exc, ctx, param) from None
-        if not number > 0:
-            raise click.BadParameter(
-                f"{value!r} must be above 0 {unit}; fix: give e.g. 200k", ctx=ctx, param=param
-            )
-        return value
-
-    return check
 
 
 def finite(ctx, param, value):
