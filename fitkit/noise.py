@@ -79,7 +79,8 @@ def parse_noise(text: str | None, sweep: Sweep) -> Noise:
         if not m or not 0 < float(m.group(1)) < math.inf:
             raise SetupError(
                 f"cannot read the noise level {text!r}",
-                remedy="write e.g. '0.05dB', '0.05dB,0.3deg', '1%' or an additive '2e-3'",
+                remedy="write auto, additive or relative (level estimated), or a level: "
+                "'0.05dB', '0.05dB,0.3deg', '1%' or an additive '2e-3'",
             )
         value, unit = float(m.group(1)), m.group(2)
         if unit == "db":
