@@ -111,10 +111,13 @@ def fit_sweep(
     else:
         problem = FitProblem(sweep, setup, get_topology(topology), known)
         first = problem.first_pass(domain, keep_outliers)
-    if not (noise_model.stated or noise_model.fixed_domain):
+    free_domain = not (noise_model.stated or noise_model.fixed_domain)
+    if free_domain:
         first, _ = choose_noise_domain(problem, first, domain)
     if topology != "auto":  # (the candidates of auto earned theirs as they were fitted)
         problem, first = add_bench_terms(problem, first)
+        if problem.bench.terms and free_domain:  # judged again on residuals that fit
+            first, _ = choose_noise_domain(problem, first, domain)
     problem.check_inside(math.exp(first.params["lnf0"].value), "the fitted resonance")
     evidence = resonance_evidence(problem, first)
     f = sweep.freq_hz
