@@ -26,6 +26,8 @@ from fitkit.setups import GENERATOR_BENCHES
 #: internal parameter of each term, and its search range
 PARAMETER = {"delay": "delay_turns", "tilt": "tilt", "floor": "ln_floor"}
 BOUNDS = {"delay_turns": (-20.0, 20.0), "tilt": (-3.0, 3.0), "ln_floor": (-25.0, 0.5)}
+#: where a term starts when no fit has suggested a value (no delay, no tilt, a low floor)
+NEUTRAL = {"delay_turns": 0.0, "tilt": 0.0, "ln_floor": -10.0}
 #: reported quantity of each term (see fitkit.result.QUANTITIES)
 REPORTED = {"delay": "delay_s", "tilt": "tilt_db_per_decade", "floor": "floor_db"}
 

@@ -20,7 +20,7 @@ from uncertainties import ufloat, umath
 from fitkit.errors import FitError
 from fitkit.estimate import Start, estimate_start, predicted, resonance_side
 from fitkit.noise import Noise
-from fitkit.nuisance import BOUNDS, PARAMETER, Bench
+from fitkit.nuisance import BOUNDS, NEUTRAL, PARAMETER, Bench
 from fitkit.setups import Setup
 from fitkit.sweep import Sweep
 from fitkit.topologies import Topology
@@ -162,7 +162,7 @@ class FitProblem:
         for name in self.topology.extras:
             params.add(f"ln_{name}", value=math.log(start.extras[name]))
         for term in self.bench.terms:
-            params.add(PARAMETER[term], value=0.0)
+            params.add(PARAMETER[term], value=NEUTRAL[PARAMETER[term]])
         for name, (low, high) in self.bounds.items():
             params[name].set(min=low, max=high)
         params.add("gain", value=start.gain, vary=not self.setup.is_calibrated)
