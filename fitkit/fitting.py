@@ -25,6 +25,7 @@ from uncertainties import correlated_values, covariance_matrix, ufloat
 
 from fitkit.bootstrap import REPLICATES, intervals, needs_bootstrap
 from fitkit.errors import FitError, SetupError
+from fitkit.estimate import dip_contrast
 from fitkit.fit_warnings import MIN_POINTS_IN_BAND, fit_warnings, points_in_band
 from fitkit.model_choice import (
     EVIDENCE,
@@ -122,7 +123,8 @@ def fit_sweep(
     evidence = resonance_evidence(problem, first)
     f = sweep.freq_hz
     span = f"between {format_quantity(f[0], 'Hz')} and {format_quantity(f[-1], 'Hz')}"
-    if evidence <= 0:
+    contrast = max(dip_contrast(setup, problem.model(first.params.valuesdict()), problem.topology))
+    if evidence <= 0 and contrast < 2.0:  # (a wide, weak resonance is doubtful, not refused)
         raise FitError(
             f"the sweep shows no resonance: a straight line in log f fits it as well as any "
             f"circuit {span}",

@@ -128,6 +128,8 @@ def relative_evidence(model, data) -> float:
     """
     d = np.asarray(data)
     m = np.asarray(model)
+    if not np.iscomplexobj(d) and np.any(d[np.isfinite(d)] <= 0):
+        return -np.inf  # a reading at or below zero cannot come from proportional scatter
     ok = np.isfinite(d) & np.isfinite(m) & (np.abs(d) > 0) & (np.abs(m) > 0)
     d, m = d[ok], m[ok]
     n = d.size
