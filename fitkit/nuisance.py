@@ -59,13 +59,33 @@ class Bench:
 
     def apply(self, m: np.ndarray, f: np.ndarray, values: dict) -> np.ndarray:
         """The reading ``m`` of the circuit as this bench would show it."""
+        return self.apply_with_derivatives(m, f, values, {}, ())[0]
+
+    def apply_with_derivatives(self, m, f, values: dict, columns: dict, names) -> tuple:
+        """:meth:`apply`, carrying the derivatives ``columns`` of ``m`` (name -> array)
+        through it and adding those of the terms' own parameters among ``names``."""
         if "delay" in self.terms:
-            m = m * np.exp(-2j * np.pi * (f / self.f_max) * values["delay_turns"])
+            slope = -2j * np.pi * (f / self.f_max)
+            factor = np.exp(slope * values["delay_turns"])
+            m = m * factor
+            columns = {k: v * factor for k, v in columns.items()}
+            if "delay_turns" in names:
+                columns["delay_turns"] = m * slope
         if "tilt" in self.terms:
-            m = m * (f / self.f_centre) ** values["tilt"]
+            log_f = np.log(f / self.f_centre)
+            factor = np.exp(values["tilt"] * log_f)
+            m = m * factor
+            columns = {k: v * factor for k, v in columns.items()}
+            if "tilt" in names:
+                columns["tilt"] = m * log_f
         if "floor" in self.terms:
-            m = np.sqrt(np.abs(m) ** 2 + (self.peak * math.exp(values["ln_floor"])) ** 2)
-        return m
+            level = self.peak * math.exp(values["ln_floor"])
+            floored = np.sqrt(np.abs(m) ** 2 + level**2)
+            columns = {k: np.real(np.conj(m) * v) / floored for k, v in columns.items()}
+            if "ln_floor" in names:
+                columns["ln_floor"] = level**2 / floored
+            m = floored
+        return m, columns
 
     def start(self, term: str, f: np.ndarray, model: np.ndarray, data: np.ndarray) -> float:
         """A starting value from the circuit-only fit's model and the data."""

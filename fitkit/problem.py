@@ -14,11 +14,12 @@ import math
 
 import lmfit
 import numpy as np
-from scipy.optimize import least_squares
+from scipy.optimize import leastsq
 from uncertainties import ufloat, umath
 
 from fitkit.errors import FitError
 from fitkit.estimate import Start, estimate_start, predicted, resonance_side
+from fitkit.jacobian import residual_jacobian
 from fitkit.noise import Noise
 from fitkit.nuisance import BOUNDS, NEUTRAL, PARAMETER, Bench
 from fitkit.setups import Setup
@@ -130,12 +131,22 @@ class FitProblem:
 
     def residual_values(self, values: dict, idx, noise: Noise) -> np.ndarray:
         a, b = self.raw_residual(values, idx, noise.domain)
-        parts = [a / noise.sigma]
-        if b is not None:
-            phase_sigma = noise.sigma if noise.domain == "additive" else noise.sigma_phase_rad
-            parts.append(b / phase_sigma)
+        first, second = self.weights(noise, idx)
+        parts = [a / first] if b is None else [a / first, b / second]
         out = np.concatenate(parts)
         return np.where(np.isfinite(out), out, 1e6)
+
+    def weights(self, noise: Noise, idx) -> tuple:
+        """The sigmas the residual's two parts are divided by."""
+        return noise.sigma, noise.sigma if noise.domain == "additive" else noise.sigma_phase_rad
+
+    def jacobian(self, values: dict, names: list, idx, noise: Noise) -> np.ndarray:
+        """d(residual_values)/d(the internal parameters ``names``), in closed form."""
+        return residual_jacobian(self, values, names, idx, noise, self.weights(noise, idx))
+
+    def lmfit_jacobian(self, params, idx, noise: Noise) -> np.ndarray:
+        """:meth:`jacobian` as lmfit's ``Dfun`` calls it."""
+        return self.jacobian(params.valuesdict(), varied(params), idx, noise)
 
     def reported(self, val: dict, scale=None) -> dict:
         """Every reported value from internal values (plain or ``uncertainties``
@@ -179,20 +190,6 @@ class FitProblem:
                 )
         return params, null_dirs
 
-    def jacobian(self, values: dict, names: list, idx, noise: Noise, central=False):
-        """The residual's Jacobian by finite differences in the internal parameters."""
-        r0 = None if central else self.residual_values(values, idx, noise)
-        cols = []
-        for name in names:
-            step = (1e-5 if central else 1e-6) * max(1.0, abs(values[name]))
-            up = self.residual_values({**values, name: values[name] + step}, idx, noise)
-            if central:
-                down = self.residual_values({**values, name: values[name] - step}, idx, noise)
-                cols.append((up - down) / (2.0 * step))
-            else:
-                cols.append((up - r0) / step)
-        return np.column_stack(cols)
-
     def null_directions(self, params: lmfit.Parameters) -> list:
         """Directions in the internal parameters that the sweep does not determine."""
         names = varied(params)
@@ -205,24 +202,35 @@ class FitProblem:
 
     # -- fitting passes -------------------------------------------------------------------
     def quick_minimize(self, params, idx, noise: Noise) -> tuple:
-        """Levenberg-Marquardt straight on scipy, for the passes that need no covariance;
-        the parameters are updated in place."""
+        """Levenberg-Marquardt straight on MINPACK with the closed-form Jacobian, for
+        the passes that need no covariance; the parameters are updated in place."""
         names = varied(params)
         base = params.valuesdict()
 
-        def fun(x):
-            return self.residual_values({**base, **dict(zip(names, x))}, idx, noise)
+        def values(x):
+            return {**base, **dict(zip(names, x))}
 
-        sol = least_squares(fun, [base[n] for n in names], method="lm", x_scale="jac")
-        for name, value in zip(names, sol.x):
+        x, _, info, _, _ = leastsq(
+            lambda x: self.residual_values(values(x), idx, noise),
+            [base[n] for n in names],
+            Dfun=lambda x: self.jacobian(values(x), names, idx, noise),
+            full_output=True,
+        )
+        for name, value in zip(names, x):
             low, high = self.bounds.get(name, (-np.inf, np.inf))
             params[name].value = min(max(value, low), high)
-        nfree = max(sol.fun.size - len(names), 1)
-        return params, float(2.0 * sol.cost / nfree)
+        fun = info["fvec"]
+        nfree = max(fun.size - len(names), 1)
+        return params, float(np.sum(fun**2) / nfree)
 
     def minimize(self, params, idx, noise: Noise, scale_covar: bool = True):
         return lmfit.minimize(
-            self.residual, params, args=(idx, noise), method="leastsq", scale_covar=scale_covar
+            self.residual,
+            params,
+            args=(idx, noise),
+            method="leastsq",
+            scale_covar=scale_covar,
+            Dfun=self.lmfit_jacobian,
         )
 
     def first_pass(self, domain: str, keep_outliers: bool) -> FirstPass:
@@ -313,10 +321,10 @@ class FitProblem:
         return Noise(domain, max(sigma, 1e-300), phase)
 
     def covariance_at(self, result, idx, noise: Noise):
-        """(J^T J)^-1 from central differences, when lmfit's own estimate failed (a
-        minimum so sharp that its forward-difference Jacobian lost precision)."""
+        """(J^T J)^-1 from the closed-form Jacobian, when lmfit's own estimate failed (a
+        minimum so sharp that its bounded-parameter transform lost precision)."""
         names = varied(result.params)
-        jac = self.jacobian(result.params.valuesdict(), names, idx, noise, central=True)
+        jac = self.jacobian(result.params.valuesdict(), names, idx, noise)
         try:
             cov = np.linalg.inv(jac.T @ jac)
         except np.linalg.LinAlgError:

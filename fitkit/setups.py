@@ -188,6 +188,11 @@ class Setup:
         a, b, c, d = self.coefficients(freq_hz) if coefficients is None else coefficients
         return (a * z + b) / (c * z + d)
 
+    def response_slope(self, z: np.ndarray, coefficients: tuple) -> np.ndarray:
+        """d(reading)/dZ of :meth:`response` at impedance ``z``: ``(ad - bc) / (cZ + d)^2``."""
+        a, b, c, d = coefficients
+        return (a * d - b * c) / (c * z + d) ** 2
+
     def impedance_from(self, measured: np.ndarray, freq_hz: np.ndarray) -> tuple:
         """Invert :meth:`response`: the circuit's Z and ``|dZ/dm|`` (noise gain)."""
         a, b, c, d = self.coefficients(freq_hz)

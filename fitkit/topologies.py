@@ -57,6 +57,11 @@ class Topology:
     def impedance(self, freq_hz, comps: dict, loss_factor) -> np.ndarray:
         return series_rlc(freq_hz, comps["R"] * loss_factor, comps["L"], comps["C"])
 
+    def partials(self, w, comps: dict, z, loss) -> dict:
+        """dZ/d(each element) at angular frequencies ``w`` where the impedance is ``z``;
+        ``"loss"`` is the loss resistance as it stands at each frequency (``loss``)."""
+        return {"loss": 1.0, "L": 1j * w, "C": 1j / (w * comps["C"] ** 2)}
+
     def derived(self, setup, f0, q, comps: dict) -> dict:
         out = {"f0_hz": f0, "Q_loaded": q, "loaded_bandwidth_hz": f0 / q}
         r = comps["R"]
@@ -87,6 +92,11 @@ class Tank(Topology):
 
     def impedance(self, freq_hz, comps: dict, loss_factor) -> np.ndarray:
         return tank(freq_hz, comps["R"] * loss_factor, comps["L"], comps["C"])
+
+    def partials(self, w, comps: dict, z, loss) -> dict:
+        # Z = 1 / Y, Y = 1 / (loss + j w L) + j w C: dZ = -Z^2 dY
+        arm = (z / (loss + 1j * w * comps["L"])) ** 2
+        return {"loss": arm, "L": 1j * w * arm, "C": -1j * w * z**2}
 
     def derived(self, setup, f0, q, comps: dict) -> dict:
         r_dynamic = comps["L"] / (comps["R"] * comps["C"])
@@ -119,6 +129,17 @@ class Coil(Topology):
         return coil_in_series(
             freq_hz, comps["R"] * loss_factor, comps["L"], comps["C"], comps["C_self"]
         )
+
+    def partials(self, w, comps: dict, z, loss) -> dict:
+        # the coil is a tank of (loss, L, C_self) in series with C
+        coil = z - 1.0 / (1j * w * comps["C"])
+        arm = (coil / (loss + 1j * w * comps["L"])) ** 2
+        return {
+            "loss": arm,
+            "L": 1j * w * arm,
+            "C_self": -1j * w * coil**2,
+            "C": 1j / (w * comps["C"] ** 2),
+        }
 
     def derived(self, setup, f0, q, comps: dict) -> dict:
         out = super().derived(setup, f0, q, comps)
@@ -153,6 +174,9 @@ class SqrtLoss(Topology):
 
     def impedance(self, freq_hz, comps: dict, loss_factor) -> np.ndarray:
         return self.base.impedance(freq_hz, comps, loss_factor)
+
+    def partials(self, w, comps: dict, z, loss) -> dict:
+        return self.base.partials(w, comps, z, loss)
 
     def derived(self, setup, f0, q, comps: dict) -> dict:
         out = self.base.derived(setup, f0, q, comps)
