@@ -41,7 +41,9 @@ def bare_solve(sweep, setup):
     start = estimate_start(sweep, setup, SERIES)
     w0 = TWO_PI * start.f0_hz
     loop = start.scale_ohm
-    x0 = np.log([max(loop - setup.external_ohm, 1e-3), start.q * loop / w0, 1 / (w0 * start.q * loop)])
+    x0 = np.log(
+        [max(loop - setup.external_ohm, 1e-3), start.q * loop / w0, 1 / (w0 * start.q * loop)]
+    )
 
     def model(x):
         r, l_h, c_f = np.exp(x)
@@ -83,7 +85,11 @@ def measure(points: int = 1001, model: str = "series", repeats: int = 30, setup_
         if model != "series":
             runs["series"].append(_cpu_ms(lambda: fit_sweep(sweep, setup, topology="series")))
     out = {k: statistics.median(v) for k, v in runs.items() if v}
-    result = {"fitkit_ms": out["fitkit"], "bare_ms": out["bare"], "ratio": out["fitkit"] / out["bare"]}
+    result = {
+        "fitkit_ms": out["fitkit"],
+        "bare_ms": out["bare"],
+        "ratio": out["fitkit"] / out["bare"],
+    }
     if model != "series":
         result["series_ms"] = out["series"]
         result["ratio_to_series"] = out["fitkit"] / out["series"]
@@ -97,15 +103,20 @@ def main() -> None:
     args = parser.parse_args()
     names = sorted(SETUPS) if args.setups == "all" else args.setups.split(",")
     print("CPU time, medians of interleaved runs; bare = least_squares, analytic Jacobian")
-    print(f"{'setup':<22} {'points':>6} {'model':>7} {'fitkit ms':>10} {'bare ms':>8} "
-          f"{'ratio':>6} {'vs series':>9}")
+    print(
+        f"{'setup':<22} {'points':>6} {'model':>7} {'fitkit ms':>10} {'bare ms':>8} "
+        f"{'ratio':>6} {'vs series':>9}"
+    )
     for name in names:
         for points in (201, 1001):
             for model in ("series", "auto"):
                 m = measure(points, model, args.repeats, name)
                 vs = f"{m['ratio_to_series']:>9.1f}" if "ratio_to_series" in m else f"{'':>9}"
-                print(f"{name:<22} {points:>6} {model:>7} {m['fitkit_ms']:>10.2f} "
-                      f"{m['bare_ms']:>8.2f} {m['ratio']:>6.1f} {vs}", flush=True)
+                print(
+                    f"{name:<22} {points:>6} {model:>7} {m['fitkit_ms']:>10.2f} "
+                    f"{m['bare_ms']:>8.2f} {m['ratio']:>6.1f} {vs}",
+                    flush=True,
+                )
 
 
 if __name__ == "__main__":

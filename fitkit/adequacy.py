@@ -25,7 +25,7 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import special, stats
+from scipy import special
 
 #: the chance that a clean sweep is flagged by any one fit's set of tests
 ALPHA = 2e-3
@@ -54,7 +54,7 @@ def runs_p_value(r: np.ndarray) -> float:
     var = (mean - 1.0) * (mean - 2.0) / (n - 1.0)
     if var <= 0:
         return 1.0
-    return float(stats.norm.cdf((runs - mean) / math.sqrt(var)))
+    return float(special.ndtr((runs - mean) / math.sqrt(var)))  # the normal cdf
 
 
 def periodogram_p_value(r: np.ndarray) -> float:
@@ -83,7 +83,8 @@ def variance_ratio_p_value(radial: np.ndarray, tangential: np.ndarray) -> tuple:
         return 1.0, 1.0
     ratio = va / vb
     n = radial.size
-    tail = stats.f.sf(ratio, n, n) if ratio > 1 else stats.f.cdf(ratio, n, n)
+    # the F distribution's upper and lower tails
+    tail = special.fdtrc(n, n, ratio) if ratio > 1 else special.fdtr(n, n, ratio)
     return float(min(1.0, 2.0 * tail)), ratio
 
 

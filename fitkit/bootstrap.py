@@ -34,10 +34,10 @@ def needs_bootstrap(quantities: dict, sparse: bool) -> bool:
     return False
 
 
-def intervals(problem, params, used, noise: Noise, names: list, scale=None) -> dict:
-    """``{name: (low, high)}``, 68 % intervals of the named values (see the module notes)."""
+def intervals(problem, values: dict, free, used, noise: Noise, names: list) -> dict:
+    """``{name: (low, high)}``, 68 % intervals of the named values (see the module notes),
+    from the internal ``values`` with the ``free`` ones refitted."""
     rng = np.random.default_rng(SEED)
-    values = params.valuesdict()
     model = problem.model(values, used)
     if not problem.sweep.is_complex:
         model = np.abs(model)
@@ -47,15 +47,14 @@ def intervals(problem, params, used, noise: Noise, names: list, scale=None) -> d
         for _ in range(REPLICATES):
             problem.data = original.copy()
             problem.data[used] = _noisy(model, noise, rng)
-            trial = params.copy()
             try:
-                trial, _ = problem.quick_minimize(trial, used, noise)
+                trial, _ = problem.quick_minimize(values, free, used, noise)
             except (ArithmeticError, ValueError, np.linalg.LinAlgError):
                 continue
-            got = problem.reported(trial.valuesdict(), scale=scale)
+            got = problem.reported(trial)
             for n in names:
                 if got.get(n) is not None:
-                    draws[n].append(float(getattr(got[n], "nominal_value", got[n])))
+                    draws[n].append(float(got[n]))
     finally:
         problem.data = original
     out = {}

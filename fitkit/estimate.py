@@ -26,6 +26,8 @@ from fitkit.setups import Setup
 from fitkit.sweep import Sweep
 from fitkit.topologies import SERIES, Topology
 
+EXTREMUM = "resonance and half-power width"
+
 
 @dataclass(frozen=True)
 class Start:
@@ -38,6 +40,11 @@ class Start:
     method: str
     extras: dict = field(default_factory=dict)
     mirror_scale_ohm: float | None = None
+
+    @property
+    def from_extremum(self) -> bool:
+        """Taken from the reading's extremum (what a second start would take again)."""
+        return self.method.startswith(EXTREMUM)
 
 
 def predicted(
@@ -191,7 +198,7 @@ def _from_extremum(f: np.ndarray, t: np.ndarray) -> tuple:
     while hi < f.size - 1 and ok[hi + 1] and t[hi + 1] < level:
         hi += 1
     width = max(f[min(hi + 1, f.size - 1)] - f[max(lo - 1, 0)], 1e-9 * f[i0])
-    return float(f[i0]), float(f[i0] / width), "resonance and half-power width"
+    return float(f[i0]), float(f[i0] / width), EXTREMUM
 
 
 def _extras_guess(f, magnitude, setup, topology: Topology, f0, z=None) -> dict:
@@ -280,13 +287,15 @@ def _best_gain(model: np.ndarray, data: np.ndarray) -> float:
     return float(np.dot(mag, data) / np.dot(mag, mag))
 
 
-def resonance_side(sweep: Sweep, setup: Setup, topology: Topology) -> str | None:
+def resonance_side(sweep: Sweep, setup: Setup, topology: Topology, strict: bool = False):
     """``"above"`` or ``"below"`` the sweep when the reading shows the resonance lies
     beyond that end (read as ``topology``), ``None`` when its shape does not say.
 
     The curve that dips at the resonance (see :func:`_dip_at_resonance`) keeps falling
     toward the end of the sweep nearer the resonance: its lowest stretch sits at that
     end. A running median over a few points keeps one noisy reading from deciding.
+    ``strict`` asks for the lowest point of the smoothed curve to be the end point
+    itself: still falling there, so no resonance of this shape can lie inside.
     """
     t = _dip_at_resonance(setup, np.abs(sweep.values), topology)
     ok = np.isfinite(t)
@@ -297,9 +306,10 @@ def resonance_side(sweep: Sweep, setup: Setup, topology: Topology) -> str | None
     padded = np.pad(t, width // 2, mode="edge")
     smooth = np.median(np.lib.stride_tricks.sliding_window_view(padded, width), axis=1)
     lowest = int(np.argmin(smooth))
-    if lowest >= t.size - max(2, t.size // 20):
+    margin = 1 if strict else max(2, t.size // 20)
+    if lowest >= t.size - margin:
         return "above"
-    if lowest < max(2, t.size // 20):
+    if lowest < margin:
         return "below"
     return None
 

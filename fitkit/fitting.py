@@ -21,7 +21,6 @@ import dataclasses
 import math
 
 import numpy as np
-from uncertainties import correlated_values, covariance_matrix, ufloat
 
 from fitkit.bootstrap import REPLICATES, intervals, needs_bootstrap
 from fitkit.errors import FitError, SetupError
@@ -36,6 +35,7 @@ from fitkit.model_choice import (
 )
 from fitkit.noise import DB_PER_NEPER, Noise, parse_noise
 from fitkit.problem import FirstPass, FitProblem, varied
+from fitkit.propagation import Propagated, depending_on
 from fitkit.result import (
     COMPONENTS,
     OPTIONAL,
@@ -43,8 +43,6 @@ from fitkit.result import (
     CircuitFit,
     FitStats,
     Quantity,
-    nominal,
-    std_dev,
 )
 from fitkit.setups import Setup
 from fitkit.sweep import Sweep
@@ -119,11 +117,11 @@ def fit_sweep(
         problem, first = add_bench_terms(problem, first)
         if problem.bench.terms and free_domain:  # judged again on residuals that fit
             first, _ = choose_noise_domain(problem, first, domain)
-    problem.check_inside(math.exp(first.params["lnf0"].value), "the fitted resonance")
+    problem.check_inside(math.exp(first.values["lnf0"]), "the fitted resonance")
     evidence = resonance_evidence(problem, first)
     f = sweep.freq_hz
     span = f"between {format_quantity(f[0], 'Hz')} and {format_quantity(f[-1], 'Hz')}"
-    contrast = max(dip_contrast(setup, problem.model(first.params.valuesdict()), problem.topology))
+    contrast = max(dip_contrast(setup, problem.model(first.values), problem.topology))
     if evidence <= 0 and contrast < 2.0:  # (a wide, weak resonance is doubtful, not refused)
         raise FitError(
             f"the sweep shows no resonance: a straight line in log f fits it as well as any "
@@ -176,7 +174,7 @@ def _check_known(known: dict) -> dict:
 
 def _finish(problem: FitProblem, first: FirstPass, noise: Noise, judged: list) -> CircuitFit:
     """The last pass on lmfit, weighted by the noise, and the result."""
-    result = problem.minimize(first.params, first.used, noise, scale_covar=not noise.stated)
+    result = problem.minimize(first, noise, scale_covar=not noise.stated)
     if result.success and result.covar is None:
         result.covar = problem.covariance_at(result, first.used, noise)
         result.errorbars = result.covar is not None
@@ -190,7 +188,7 @@ def _finish(problem: FitProblem, first: FirstPass, noise: Noise, judged: list) -
 
 
 def _to_result(problem, result, first: FirstPass, noise: Noise, judged: list) -> CircuitFit:
-    quantities, undetermined, uvalues = _quantities(problem, result, first.null_dirs)
+    quantities, undetermined, determined, covariance = _quantities(problem, result, first.null_dirs)
     problem.check_inside(quantities["f0_hz"].value, "the fitted resonance")
     used = first.used
     a, b = problem.raw_residual(result.params.valuesdict(), used, noise.domain)
@@ -233,12 +231,11 @@ def _to_result(problem, result, first: FirstPass, noise: Noise, judged: list) ->
         outlier_reasons=list(first.outlier_reasons),
         warnings=[text for text, _ in judged],
     )
-    determined = [n for n in quantities if quantities[n].determined]
     fit = CircuitFit(
         topology=problem.topology.name,
         quantities=quantities,
         covariance_names=determined,
-        covariance=np.array(covariance_matrix([uvalues[n] for n in determined])),
+        covariance=covariance,
         stats=stats,
         setup=problem.setup.to_dict(),
         sweep=_sweep_info(problem),
@@ -256,7 +253,9 @@ _POORLY_PINNED = 0.6
 def _with_intervals(problem, result, used, noise, quantities: dict) -> dict:
     """68 % bootstrap intervals on every determined value; no error below half of one."""
     names = [n for n, q in quantities.items() if q.determined]
-    found = intervals(problem, result.params, used, noise, names)
+    found = intervals(
+        problem, result.params.valuesdict(), varied(result.params), used, noise, names
+    )
     out = dict(quantities)
     for name, (low, high) in found.items():
         q = out[name]
@@ -294,28 +293,24 @@ def _mark_doubtful(quantities: dict, judged: list) -> dict:
 
 
 def _quantities(problem: FitProblem, result, null_dirs) -> tuple:
-    names = varied(result.params)
-    uv = dict(zip(names, correlated_values([result.params[n].value for n in names], result.covar)))
-    val = {n: uv.get(n, p.value) for n, p in result.params.items()}
+    """Quantities with their standard errors, the undetermined ones with the reason, and
+    the covariance of the determined ones (:mod:`fitkit.propagation`)."""
+    values = result.params.valuesdict()
+    carried = Propagated(problem, values, varied(result.params), result.covar)
     scale_open = bool(null_dirs) and not problem.known
-    marker = None
-    if scale_open:
-        marker = ufloat(math.exp(val["lnscale"]), 1.0, tag="scale left open")
-    values = problem.reported(val, scale=marker)
-    quantities, undetermined, kept = {}, [], {}
+    on_open_scale = depending_on(problem, values, "lnscale") if scale_open else set()
+    quantities, undetermined, kept = {}, [], []
     for name in QUANTITIES:
-        if name in OPTIONAL and name not in values:
+        if name in OPTIONAL and name not in carried.values:
             continue
-        u = values.get(name)
-        depends_on_open = marker is not None and u is not None and _derivative(u, marker) != 0.0
-        if u is None or depends_on_open:
-            reason, remedy = _why_undetermined(depends_on_open or scale_open)
+        if name not in carried.values or name in on_open_scale:
+            reason, remedy = _why_undetermined(name in on_open_scale or scale_open)
             quantities[name] = Quantity(name, None, None, reason)
             undetermined.append({"name": name, "reason": reason, "remedy": remedy})
             continue
-        kept[name] = u
-        quantities[name] = Quantity(name, nominal(u), std_dev(u))
-    return quantities, undetermined, kept
+        kept.append(name)
+        quantities[name] = Quantity(name, carried.values[name], carried.std_dev(name))
+    return quantities, undetermined, kept, carried.covariance(kept)
 
 
 def _why_undetermined(scale_open: bool) -> tuple:
@@ -350,7 +345,3 @@ def _sweep_info(problem: FitProblem) -> dict:
     if getattr(sweep, "sha256", None):  # hashed once, by the reader
         info["sha256"] = sweep.sha256
     return info
-
-
-def _derivative(u, variable) -> float:
-    return getattr(u, "derivatives", {}).get(variable, 0.0)

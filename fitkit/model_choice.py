@@ -23,7 +23,7 @@ from fitkit.adequacy import check_structure
 from fitkit.errors import FitError
 from fitkit.noise import RELATIVE_EVIDENCE, Noise, relative_evidence
 from fitkit.nuisance import PARAMETER, applicable
-from fitkit.problem import UNIT_NOISE, FirstPass, FitProblem, varied
+from fitkit.problem import UNIT_NOISE, FirstPass, FitProblem
 from fitkit.topologies import TOPOLOGIES
 from fitkit.units import format_quantity
 
@@ -43,34 +43,40 @@ _WORDS = {
 
 def bic(problem: FitProblem, first: FirstPass, idx) -> float:
     """The criterion with the noise level unknown, on the points ``idx``."""
-    r = problem.residual_values(
-        first.params.valuesdict(), idx, Noise(first.domain, UNIT_NOISE, UNIT_NOISE)
-    )
+    r = problem.residual_values(first.values, idx, Noise(first.domain, UNIT_NOISE, UNIT_NOISE))
     n = r.size
     rss = max(float(np.sum(r**2)), 1e-300 * n)
-    return n * math.log(rss / n) + len(varied(first.params)) * math.log(n)
+    return n * math.log(rss / n) + len(first.free) * math.log(n)
 
 
 def choose_topology(sweep, setup, known, domain: str, keep_outliers: bool) -> tuple:
-    """Fit every candidate circuit; the winner's problem, first pass and the reason."""
-    trials, failed = {}, {}
+    """Fit every candidate circuit; the winner's problem, first pass and the reason.
+
+    A richer circuit that contains a plainer one already fitted (the coil contains the
+    series circuit, each sqrt(f) loss its plain circuit) is first screened from the
+    plainer one's fit (:func:`_screened_score`) and fitted only when it could win."""
+    trials, failed, score = {}, {}, {}
     for name in _PLAIN:
-        problem = FitProblem(sweep, setup, TOPOLOGIES[name], known)
-        problem.forced = False  # the model is being chosen, not imposed
+        base = trials.get("series") if name == "coil" else None
         try:
+            if base is not None and _screened(score, base, TOPOLOGIES[name], name):
+                continue
+            problem = FitProblem(sweep, setup, TOPOLOGIES[name], known)
+            problem.forced = False  # the model is being chosen, not imposed
             # each candidate with the bench terms it earns: a circuit must not win by
             # mimicking a bench's delay or floor
             problem, first = add_bench_terms(
                 *_with(problem, problem.first_pass(domain, keep_outliers))
             )
             trials[name] = (problem, first)
-            grown = FitProblem(
-                sweep, setup, TOPOLOGIES[f"{name}-sqrtf"], known, problem.bench.terms
+            grown = TOPOLOGIES[f"{name}-sqrtf"]
+            if _screened(score, (problem, first), grown, grown.name):
+                continue
+            grown_problem = problem.with_terms(problem.bench.terms, grown)
+            values = {**first.values, "ln_skin": 0.0}
+            trials[grown.name] = _with(
+                grown_problem, grown_problem.refine(first, values, (*first.free, "ln_skin"))
             )
-            grown.forced = False
-            params = first.params.copy()
-            params.add("ln_skin", value=0.0, min=-9.0, max=9.0)
-            trials[grown.topology.name] = _with(grown, grown.refine(first, params))
         except FitError as exc:
             failed.setdefault(name, exc)
         except (ArithmeticError, ValueError, np.linalg.LinAlgError) as exc:
@@ -80,7 +86,8 @@ def choose_topology(sweep, setup, known, domain: str, keep_outliers: bool) -> tu
     common = np.arange(sweep.points)
     for _, first in trials.values():
         common = np.intersect1d(common, first.used)
-    score = {name: bic(problem, first, common) for name, (problem, first) in trials.items()}
+    fitted = {name: bic(problem, first, common) for name, (problem, first) in trials.items()}
+    score = {**{n: s for n, s in score.items() if n in trials or n not in failed}, **fitted}
     ranked = sorted(score, key=score.get)
     winner = ranked[0]
     close = [n for n in ranked[1:] if score[n] - score[winner] < EVIDENCE]
@@ -107,9 +114,56 @@ def choose_topology(sweep, setup, known, domain: str, keep_outliers: bool) -> tu
     return problem, first, text, {n: score[n] - score[winner] for n in score}
 
 
+#: a screened candidate is fitted when its predicted criterion comes within this of winning
+_SCREEN_MARGIN = 0.5 * EVIDENCE
+
+
+def _nearly_off(extra: str, problem: FitProblem) -> float:
+    """Where a richer circuit's extra parameter is all but switched off: a
+    self-resonance e^4 (55) times above the sweep, a growing loss e^-6 of the loss."""
+    return math.log(problem.f[-1]) + 4.0 if extra == "f_self_hz" else -6.0
+
+
+def _screened(score: dict, base: tuple, topology, name: str) -> bool:
+    """Record the predicted criterion of ``topology`` in ``score`` and say whether it
+    cannot win: it is then not fitted."""
+    predicted = _screened_score(*base, topology)
+    problem, first = base
+    plain = bic(problem, first, first.used)
+    if predicted > plain - EVIDENCE + _SCREEN_MARGIN:
+        score[name] = predicted
+        return True
+    return False
+
+
+def _screened_score(problem: FitProblem, first: FirstPass, topology) -> float:
+    """The criterion a richer circuit could reach from the plainer one's fit, by one
+    Gauss-Newton step with its extra parameter all but switched off: the score
+    (Lagrange multiplier) test of the extra parameter (Rao, Proc. Camb. Phil. Soc. 44,
+    1948; for least squares the regression of the residuals on the full Jacobian, e.g.
+    Seber & Wild, Nonlinear Regression, 1989, sec. 5.9, from memory). It predicts the
+    fit's gain well when the extra term is small, which is when it cannot win; a large
+    predicted gain sends the candidate to a full fit."""
+    richer = problem.with_terms(problem.bench.terms, topology)
+    extra = {
+        f"ln_{name}": _nearly_off(name, problem)
+        for name in topology.extras
+        if f"ln_{name}" not in first.values
+    }
+    values = {**first.values, **extra}
+    free = (*first.free, *extra)
+    unit = Noise(first.domain, UNIT_NOISE, UNIT_NOISE)
+    r = richer.residual_values(values, first.used, unit)
+    jac = richer.jacobian(values, list(free), first.used, unit)
+    step, *_ = np.linalg.lstsq(jac, -r, rcond=None)
+    n = r.size
+    rss = max(float(np.sum((r + jac @ step) ** 2)), 1e-300 * n)
+    return n * math.log(rss / n) + len(free) * math.log(n)
+
+
 def _with(problem: FitProblem, first: FirstPass) -> tuple:
     """The pair, once its resonance is seen to lie inside the sweep."""
-    problem.check_inside(math.exp(first.params["lnf0"].value), "the fitted resonance")
+    problem.check_inside(math.exp(first.values["lnf0"]), "the fitted resonance")
     return problem, first
 
 
@@ -145,7 +199,7 @@ def _no_model_fits(sweep, failed: dict) -> FitError:
 def choose_noise_domain(problem: FitProblem, first: FirstPass, default: str) -> tuple:
     """Even or proportional noise, by the evidence of the first pass's residuals."""
     idx = first.used
-    model = problem.model(first.params.valuesdict(), idx)
+    model = problem.model(first.values, idx)
     data = problem.data[idx]
     if not np.iscomplexobj(data):
         model = np.abs(model)
@@ -158,7 +212,7 @@ def choose_noise_domain(problem: FitProblem, first: FirstPass, default: str) -> 
         domain = default
     if domain == first.domain:
         return first, evidence
-    return problem.refine(first, first.params.copy(), domain), evidence
+    return problem.refine(first, first.values, domain=domain), evidence
 
 
 def add_bench_terms(problem: FitProblem, first: FirstPass) -> tuple:
@@ -175,14 +229,14 @@ def add_bench_terms(problem: FitProblem, first: FirstPass) -> tuple:
         tried = {}
         for term in remaining:
             trial = current.with_terms((*current.bench.terms, term))
-            params = current_first.params.copy()
-            values = params.valuesdict()
+            values = current_first.values
             model = current.model(values, first.used)
             start = trial.bench.start(term, problem.f[first.used], model, problem.data[first.used])
-            low, high = trial.bounds[PARAMETER[term]]
-            params.add(PARAMETER[term], value=start, min=low, max=high)
+            values = {**values, PARAMETER[term]: start}
             try:
-                refined = trial.refine(current_first, params)
+                refined = trial.refine(
+                    current_first, values, (*current_first.free, PARAMETER[term])
+                )
             except (ArithmeticError, ValueError, np.linalg.LinAlgError):
                 continue
             tried[term] = (trial, refined, bic(trial, refined, first.used))
@@ -220,5 +274,5 @@ def resonance_evidence(problem: FitProblem, first: FirstPass) -> float:
 
 
 def _has_structure(problem: FitProblem, first: FirstPass) -> bool:
-    a, b = problem.raw_residual(first.params.valuesdict(), first.used, first.domain)
+    a, b = problem.raw_residual(first.values, first.used, first.domain)
     return bool(check_structure({"magnitude": a, "phase": b}, alpha=_LOOSE))

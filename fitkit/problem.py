@@ -15,7 +15,6 @@ import math
 import lmfit
 import numpy as np
 from scipy.optimize import leastsq
-from uncertainties import ufloat, umath
 
 from fitkit.errors import FitError
 from fitkit.estimate import Start, estimate_start, predicted, resonance_side
@@ -39,12 +38,29 @@ def varied(params: lmfit.Parameters) -> list:
 
 
 class FirstPass:
-    """A fit on the points kept, and what it found on the way."""
+    """A fit on the points kept, and what it found on the way: the internal ``values``
+    (every parameter, held ones too) and the names of the ``free`` ones."""
 
-    def __init__(self, params, redchi, used, outliers, start: Start, null_dirs, domain):
-        self.params, self.redchi, self.used, self.outliers = params, redchi, used, outliers
+    def __init__(self, values, free, redchi, used, outliers, start: Start, null_dirs, domain):
+        self.values, self.free, self.redchi = values, tuple(free), redchi
+        self.used, self.outliers = used, outliers
         self.start, self.null_dirs, self.domain = start, null_dirs, domain
         self.outlier_reasons: list = []
+
+    def moved(self, values: dict, free=None, redchi=None, domain=None) -> FirstPass:
+        """The same pass at other values (and free names, domain)."""
+        out = FirstPass(
+            values,
+            self.free if free is None else free,
+            self.redchi if redchi is None else redchi,
+            self.used,
+            self.outliers,
+            self.start,
+            self.null_dirs,
+            domain or self.domain,
+        )
+        out.outlier_reasons = self.outlier_reasons
+        return out
 
 
 class FitProblem:
@@ -69,9 +85,9 @@ class FitProblem:
             self.bounds["ln_skin"] = (-9.0, 9.0)
         self.bounds.update({PARAMETER[t]: BOUNDS[PARAMETER[t]] for t in self.bench.terms})
 
-    def with_terms(self, terms: tuple) -> FitProblem:
-        """The same problem with other bench terms switched on."""
-        other = FitProblem(self.sweep, self.setup, self.topology, self.known, terms)
+    def with_terms(self, terms: tuple, topology: Topology | None = None) -> FitProblem:
+        """The same problem with other bench terms switched on (and another topology)."""
+        other = FitProblem(self.sweep, self.setup, topology or self.topology, self.known, terms)
         other.forced = self.forced
         return other
 
@@ -148,86 +164,96 @@ class FitProblem:
         """:meth:`jacobian` as lmfit's ``Dfun`` calls it."""
         return self.jacobian(params.valuesdict(), varied(params), idx, noise)
 
-    def reported(self, val: dict, scale=None) -> dict:
-        """Every reported value from internal values (plain or ``uncertainties``
-        numbers); ``scale`` stands in for the scale resistance when the sweep leaves it
-        open. A known value pins the scale, its own uncertainty carried on."""
-        f0, q = umath.exp(val["lnf0"]), umath.exp(val["lnq"])
+    def reported(self, val: dict, known_shift=0.0) -> dict:
+        """Every reported value from internal values: plain floats, or complex ones for
+        the complex step that propagates the covariance (:mod:`fitkit.propagation`).
+        A known value pins the scale; ``known_shift`` moves it (for its own error)."""
+        f0, q = np.exp(val["lnf0"]), np.exp(val["lnq"])
         if self.known:
-            ((name, (value, stderr)),) = self.known.items()
-            exact_or_uncertain = ufloat(value, stderr) if stderr else value
-            scale = self.topology.scale_from_known(self.setup, name, exact_or_uncertain, f0, q)
-        elif scale is None:
-            scale = umath.exp(val["lnscale"])
-        extras = {e: umath.exp(val[f"ln_{e}"]) for e in self.topology.extras}
+            ((name, (value, _)),) = self.known.items()
+            scale = self.topology.scale_from_known(self.setup, name, value + known_shift, f0, q)
+        else:
+            scale = np.exp(val["lnscale"])
+        extras = {e: np.exp(val[f"ln_{e}"]) for e in self.topology.extras}
         comps = self.topology.components(self.setup, f0, q, scale, extras)
         derived = self.topology.derived(self.setup, f0, q, comps)
         return {**comps, **derived, **self.bench.reported(val)}
 
     # -- parameters and identifiability --------------------------------------------------
-    def parameters(self, start: Start) -> tuple:
-        params = lmfit.Parameters()
-        params.add("lnf0", value=math.log(start.f0_hz))
-        params.add("lnq", value=math.log(min(max(start.q, 0.02), 1e6)))
-        params.add("lnscale", value=math.log(start.scale_ohm), vary=not self.known)
-        for name in self.topology.extras:
-            params.add(f"ln_{name}", value=math.log(start.extras[name]))
-        for term in self.bench.terms:
-            params.add(PARAMETER[term], value=NEUTRAL[PARAMETER[term]])
-        for name, (low, high) in self.bounds.items():
-            params[name].set(min=low, max=high)
-        params.add("gain", value=start.gain, vary=not self.setup.is_calibrated)
-        null_dirs = self.null_directions(params)
-        if null_dirs and params["lnscale"].vary:
+    def start_values(self, start: Start) -> tuple:
+        """Internal values at ``start``, the names left free, the undetermined directions."""
+        values = {
+            "lnf0": math.log(start.f0_hz),
+            "lnq": math.log(min(max(start.q, 0.02), 1e6)),
+            "lnscale": math.log(start.scale_ohm),
+            **{f"ln_{name}": math.log(start.extras[name]) for name in self.topology.extras},
+            **{PARAMETER[term]: NEUTRAL[PARAMETER[term]] for term in self.bench.terms},
+            "gain": start.gain,
+        }
+        values = {
+            k: min(max(v, self.bounds[k][0]), self.bounds[k][1]) if k in self.bounds else v
+            for k, v in values.items()
+        }
+        free = [n for n in values if n != "gain" and not (n == "lnscale" and self.known)]
+        if not self.setup.is_calibrated:
+            free.append("gain")
+        null_dirs = self.null_directions(values, free)
+        if null_dirs and "lnscale" in free:
             # the scale is what an uncalibrated sweep leaves open: hold it, keep the shape
-            params["lnscale"].vary = False
-            null_dirs = self.null_directions(params) or null_dirs
-            if self.null_directions(params):
+            free.remove("lnscale")
+            if self.null_directions(values, free):
                 raise FitError(
                     f"the sweep cannot determine the resonance and Q of a {self.topology.label}",
                     remedy="sweep across the resonance with more points",
                     path=self.sweep.source,
                 )
-        return params, null_dirs
+        return values, tuple(free), null_dirs
 
-    def null_directions(self, params: lmfit.Parameters) -> list:
+    def lmfit_parameters(self, values: dict, free) -> lmfit.Parameters:
+        """lmfit's Parameters for ``values``, the ``free`` ones varying within bounds."""
+        params = lmfit.Parameters()
+        for name, value in values.items():
+            low, high = self.bounds.get(name, (-np.inf, np.inf))
+            params.add(name, value=value, vary=name in free, min=low, max=high)
+        return params
+
+    def null_directions(self, values: dict, free) -> list:
         """Directions in the internal parameters that the sweep does not determine."""
-        names = varied(params)
         idx = np.arange(self.sweep.points)
-        jac = self.jacobian(params.valuesdict(), names, idx, Noise("additive", UNIT_NOISE))
+        jac = self.jacobian(values, list(free), idx, Noise("additive", UNIT_NOISE))
         norms = np.linalg.norm(jac, axis=0)
         norms[norms == 0] = 1.0
         _, s, vt = np.linalg.svd(jac / norms, full_matrices=False)
-        return [dict(zip(names, vt[i] / norms)) for i in range(len(s)) if s[i] < _SINGULAR * s[0]]
+        return [dict(zip(free, vt[i] / norms)) for i in range(len(s)) if s[i] < _SINGULAR * s[0]]
 
     # -- fitting passes -------------------------------------------------------------------
-    def quick_minimize(self, params, idx, noise: Noise) -> tuple:
+    def quick_minimize(self, values: dict, free, idx, noise: Noise) -> tuple:
         """Levenberg-Marquardt straight on MINPACK with the closed-form Jacobian, for
-        the passes that need no covariance; the parameters are updated in place."""
-        names = varied(params)
-        base = params.valuesdict()
+        the passes that need no covariance: the values found and the reduced chi-square."""
+        names = list(free)
 
-        def values(x):
-            return {**base, **dict(zip(names, x))}
+        def at(x):
+            return {**values, **dict(zip(names, x))}
 
         x, _, info, _, _ = leastsq(
-            lambda x: self.residual_values(values(x), idx, noise),
-            [base[n] for n in names],
-            Dfun=lambda x: self.jacobian(values(x), names, idx, noise),
+            lambda x: self.residual_values(at(x), idx, noise),
+            [values[n] for n in names],
+            Dfun=lambda x: self.jacobian(at(x), names, idx, noise),
             full_output=True,
         )
+        found = dict(values)
         for name, value in zip(names, x):
             low, high = self.bounds.get(name, (-np.inf, np.inf))
-            params[name].value = min(max(value, low), high)
+            found[name] = min(max(float(value), low), high)
         fun = info["fvec"]
-        nfree = max(fun.size - len(names), 1)
-        return params, float(np.sum(fun**2) / nfree)
+        return found, float(np.sum(fun**2) / max(fun.size - len(names), 1))
 
-    def minimize(self, params, idx, noise: Noise, scale_covar: bool = True):
+    def minimize(self, first: FirstPass, noise: Noise, scale_covar: bool = True):
+        """The pass on lmfit, from ``first``'s values: the covariance comes from it."""
         return lmfit.minimize(
             self.residual,
-            params,
-            args=(idx, noise),
+            self.lmfit_parameters(first.values, first.free),
+            args=(first.used, noise),
             method="leastsq",
             scale_covar=scale_covar,
             Dfun=self.lmfit_jacobian,
@@ -235,32 +261,39 @@ class FitProblem:
 
     def first_pass(self, domain: str, keep_outliers: bool) -> FirstPass:
         """Start, identifiability, a fit with unit weights, outliers out and refit."""
+        beyond = resonance_side(self.sweep, self.setup, self.topology, strict=True)
+        if beyond and not self.forced:
+            # a candidate whose reading still falls at an end has no resonance inside:
+            # refused before any search
+            raise self.outside_error(beyond, "the resonance")
         start = estimate_start(self.sweep, self.setup, self.topology)
         self.check_inside(start.f0_hz, "the first estimate of the resonance")
-        params, null_dirs = self.parameters(start)
+        values, free, null_dirs = self.start_values(start)
         unit = Noise(domain, UNIT_NOISE, UNIT_NOISE)
         used = np.arange(self.sweep.points)
-        params, redchi = self.quick_minimize(params, used, unit)
-        if not self.f[0] <= math.exp(params["lnf0"].value) <= self.f[-1]:
+        values, redchi = self.quick_minimize(values, free, used, unit)
+        if not self.f[0] <= math.exp(values["lnf0"]) <= self.f[-1] and not start.from_extremum:
             # the refinement left the sweep: try once more from the sweep's extremum and
             # keep that minimum if it stays inside (a resonance outside is refused anyway)
             second = estimate_start(self.sweep, self.setup, self.topology, from_extremum=True)
-            retry, retry_redchi = self.quick_minimize(self.parameters(second)[0], used, unit)
-            if self.f[0] <= math.exp(retry["lnf0"].value) <= self.f[-1]:
-                params, redchi, start = retry, retry_redchi, second
-        first = FirstPass(params, redchi, used, np.array([], dtype=int), start, null_dirs, domain)
+            retry, retry_redchi = self.quick_minimize(
+                self.start_values(second)[0], free, used, unit
+            )
+            if self.f[0] <= math.exp(retry["lnf0"]) <= self.f[-1]:
+                values, redchi, start = retry, retry_redchi, second
+        first = FirstPass(
+            values, free, redchi, used, np.array([], dtype=int), start, null_dirs, domain
+        )
         return first if keep_outliers else self.drop_outliers(first)
 
-    def refine(self, first: FirstPass, params, domain: str | None = None) -> FirstPass:
-        """Another unit-weight pass from ``params`` on the points ``first`` kept."""
+    def refine(self, first: FirstPass, values: dict, free=None, domain: str | None = None):
+        """Another unit-weight pass from ``values`` on the points ``first`` kept."""
         domain = domain or first.domain
-        unit = Noise(domain, UNIT_NOISE, UNIT_NOISE)
-        params, redchi = self.quick_minimize(params, first.used, unit)
-        out = FirstPass(
-            params, redchi, first.used, first.outliers, first.start, first.null_dirs, domain
+        free = first.free if free is None else tuple(free)
+        found, redchi = self.quick_minimize(
+            values, free, first.used, Noise(domain, UNIT_NOISE, UNIT_NOISE)
         )
-        out.outlier_reasons = first.outlier_reasons
-        return out
+        return first.moved(found, free, redchi, domain)
 
     def drop_outliers(self, first: FirstPass) -> FirstPass:
         """Points far from the first fit by a robust measure, and with little leverage,
@@ -270,7 +303,7 @@ class FitProblem:
         from memory) counts 0.2 to 0.5 as risky and above 0.5 as a point that fixes its
         own fitted value."""
         idx, domain = first.used, first.domain
-        a, b = self.raw_residual(first.params.valuesdict(), idx, domain)
+        a, b = self.raw_residual(first.values, idx, domain)
         flagged = np.zeros(idx.size, dtype=bool)
         size = np.zeros(idx.size)
         for comp in [a] if b is None else [a, b]:
@@ -281,8 +314,7 @@ class FitProblem:
                 size = np.maximum(size, dev)
         if not flagged.any() or flagged.sum() > _MAX_OUTLIER_SHARE * idx.size:
             return first
-        leverage = self.leverage(first.params, idx, domain)
-        steering = leverage > _STEERING
+        steering = self.leverage(first.values, first.free, idx, domain) > _STEERING
         drop = flagged & ~steering
         if not drop.any():
             return first
@@ -293,15 +325,11 @@ class FitProblem:
         ]
         first.outliers = idx[drop]
         first.used = np.setdiff1d(idx, idx[drop])
-        kept_reasons = first.outlier_reasons
-        first = self.refine(first, first.params)
-        first.outlier_reasons = kept_reasons
-        return first
+        return self.refine(first, first.values)
 
-    def leverage(self, params, idx, domain: str) -> np.ndarray:
+    def leverage(self, values: dict, free, idx, domain: str) -> np.ndarray:
         """Each point's hat value (summed over its real and imaginary rows)."""
-        names = varied(params)
-        jac = self.jacobian(params.valuesdict(), names, idx, Noise(domain, UNIT_NOISE, UNIT_NOISE))
+        jac = self.jacobian(values, list(free), idx, Noise(domain, UNIT_NOISE, UNIT_NOISE))
         q, _ = np.linalg.qr(jac)
         hat = np.sum(q**2, axis=1)
         return hat.reshape(-1, idx.size).sum(axis=0)
@@ -309,9 +337,9 @@ class FitProblem:
     def estimate_noise(self, first: FirstPass) -> Noise:
         """Noise from the residuals of the first pass, magnitude and phase apart."""
         domain = first.domain
-        a, b = self.raw_residual(first.params.valuesdict(), first.used, domain)
+        a, b = self.raw_residual(first.values, first.used, domain)
         ncomp = 1 if b is None else 2
-        nvary = len(varied(first.params))
+        nvary = len(first.free)
         dof_share = max(1.0 - nvary / (ncomp * first.used.size), 0.5)
         if domain == "additive" and b is not None:
             sigma = math.sqrt(np.mean(np.concatenate([a, b]) ** 2) / dof_share)
@@ -340,6 +368,10 @@ class FitProblem:
         side = resonance_side(self.sweep, self.setup, self.topology) or (
             "above" if f0 > self.f[-1] else "below"
         )
+        raise self.outside_error(side, what)
+
+    def outside_error(self, side: str, what: str) -> FitError:
+        """The error for a resonance that lies ``side`` ("above" or "below") the sweep."""
         bound = self.f[-1] if side == "above" else self.f[0]
         lo, hi = format_quantity(self.f[0], "Hz"), format_quantity(self.f[-1], "Hz")
         error = FitError(
@@ -355,4 +387,4 @@ class FitProblem:
             path=self.sweep.source,
         )
         error.outside, error.bound_hz = side, float(bound)
-        raise error
+        return error

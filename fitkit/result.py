@@ -52,7 +52,7 @@ COMPONENTS = ("R", "L", "C")
 
 def nominal(x) -> float:
     """The value of a float or an ``uncertainties`` number."""
-    return float(getattr(x, "nominal_value", x))
+    return float(getattr(x, "nominal_value", x).real)
 
 
 def std_dev(x) -> float:
