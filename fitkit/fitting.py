@@ -173,8 +173,17 @@ def _check_known(known: dict) -> dict:
 
 
 def _finish(problem: FitProblem, first: FirstPass, noise: Noise, judged: list) -> CircuitFit:
-    """The last pass on lmfit, weighted by the noise, and the result."""
-    result = problem.minimize(first, noise, scale_covar=not noise.stated)
+    """The last pass on lmfit, weighted by the noise, and the result. When lmfit's first
+    pass stands unchanged and one sigma weights every residual, weighting cannot move
+    the minimum and the covariance it scaled by the reduced chi-square is already the
+    one an estimated noise gives: that pass is the last, its chi-square put in units of
+    the noise."""
+    one_sigma = noise.domain == "additive" or not problem.sweep.is_complex
+    if first.result is not None and one_sigma and not noise.stated:
+        result = first.result
+        result.chisqr = result.chisqr / noise.sigma**2
+    else:
+        result = problem.minimize(first, noise, scale_covar=not noise.stated)
     if result.success and result.covar is None:
         result.covar = problem.covariance_at(result, first.used, noise)
         result.errorbars = result.covar is not None

@@ -49,9 +49,8 @@ def model_and_jacobian(problem, values: dict, names: list, idx) -> tuple:
         k: min(max(v, problem.bounds[k][0]), problem.bounds[k][1]) if k in problem.bounds else v
         for k, v in values.items()
     }
-    f = problem.f[idx]
+    f, coefficients = problem.at(idx)
     w = TWO_PI * f
-    coefficients = tuple(c[idx] for c in problem.coefficients)
     f0, _, _, extras, elements = circuit_state(problem, clipped)
     factor = topology.loss_factor(f, f0, extras)
     loss = elements["R"] * factor

@@ -31,6 +31,9 @@ _MAX_OUTLIER_SHARE = 0.05
 _STEERING = 0.2  # hat value above which a point is never dropped
 _SINGULAR = 1e-6  # relative singular value below which a direction is not determined
 UNIT_NOISE = 1.0
+_OPEN = (-np.inf, np.inf)
+#: lmfit Parameters by (names, free names), reset for each pass
+_TEMPLATES: dict = {}
 
 
 def varied(params: lmfit.Parameters) -> list:
@@ -46,6 +49,9 @@ class FirstPass:
         self.used, self.outliers = used, outliers
         self.start, self.null_dirs, self.domain = start, null_dirs, domain
         self.outlier_reasons: list = []
+        #: the lmfit result of this pass, when lmfit ran it (with unit weights, no bounds
+        #: reached): the last pass need not run again if the weights stay even
+        self.result = None
 
     def moved(self, values: dict, free=None, redchi=None, domain=None) -> FirstPass:
         """The same pass at other values (and free names, domain)."""
@@ -76,6 +82,7 @@ class FitProblem:
         self.f = sweep.freq_hz
         self.data = sweep.values
         self.coefficients = setup.coefficients(self.f)
+        self._subset = (None, None)
         # generous bounds keep a wandering candidate model finite; a fit that ends on
         # one is reported (values at a bound are not trusted)
         lo, hi = math.log(self.f[0]), math.log(self.f[-1])
@@ -107,15 +114,21 @@ class FitProblem:
         extras = {e: math.exp(values[f"ln_{e}"]) for e in self.topology.extras}
         return f0, q, scale, extras, values["gain"], values
 
+    def at(self, idx) -> tuple:
+        """Frequencies and bench coefficients at the points ``idx`` (every point: no
+        copy; the last subset is kept, as the passes ask for the same one many times)."""
+        if isinstance(idx, slice) or idx.size == self.f.size:
+            return self.f, self.coefficients
+        if idx is not self._subset[0]:
+            self._subset = (idx, (self.f[idx], tuple(c[idx] for c in self.coefficients)))
+        return self._subset[1]
+
     def model(self, values: dict, idx=slice(None)) -> np.ndarray:
         f0, q, scale, extras, gain, clipped = self.state(values)
-        if isinstance(idx, slice) or idx.size == self.f.size:
-            coefficients = self.coefficients  # every point: no copy
-        else:
-            coefficients = tuple(c[idx] for c in self.coefficients)
+        f, coefficients = self.at(idx)
         m = predicted(
             self.setup,
-            self.f[idx],
+            f,
             f0,
             q,
             scale,
@@ -124,7 +137,7 @@ class FitProblem:
             gain=gain,
             coefficients=coefficients,
         )
-        return self.bench.apply(m, self.f[idx], clipped) if self.bench.terms else m
+        return self.bench.apply(m, f, clipped) if self.bench.terms else m
 
     def raw_residual(self, values: dict, idx, domain: str) -> tuple:
         """Unweighted residual components: (magnitude or real part, phase or imaginary)."""
@@ -209,17 +222,29 @@ class FitProblem:
                 )
         return values, tuple(free), null_dirs
 
-    def lmfit_parameters(self, values: dict, free) -> lmfit.Parameters:
-        """lmfit's Parameters for ``values``, the ``free`` ones varying within bounds."""
-        params = lmfit.Parameters()
+    def lmfit_parameters(self, values: dict, free, bounded: bool = True) -> lmfit.Parameters:
+        """lmfit's Parameters for ``values``, the ``free`` ones varying (within bounds).
+
+        One set of Parameters is kept for each list of names and reset here: building
+        one costs as much as a pass of the solver, and lmfit fits a copy of it anyway."""
+        key = (tuple(values), tuple(free))
+        params = _TEMPLATES.get(key)
+        if params is None:
+            params = _TEMPLATES.setdefault(key, lmfit.Parameters())
+            for name, value in values.items():
+                params.add(name, value=value, vary=name in free)
         for name, value in values.items():
-            low, high = self.bounds.get(name, (-np.inf, np.inf))
-            params.add(name, value=value, vary=name in free, min=low, max=high)
+            low, high = self.bounds.get(name, _OPEN) if bounded else _OPEN
+            params[name].set(min=low, max=high)
+            params[name].set(value=value)
         return params
 
     def null_directions(self, values: dict, free) -> list:
-        """Directions in the internal parameters that the sweep does not determine."""
-        idx = np.arange(self.sweep.points)
+        """Directions in the internal parameters that the sweep does not determine.
+
+        Judged on about 100 points spread over the sweep: a direction the model cannot
+        tell apart is as flat on them as on all (the threshold asks for exact flatness)."""
+        idx = np.unique(np.linspace(0, self.sweep.points - 1, 101).astype(int))
         jac = self.jacobian(values, list(free), idx, Noise("additive", UNIT_NOISE))
         norms = np.linalg.norm(jac, axis=0)
         norms[norms == 0] = 1.0
@@ -250,14 +275,35 @@ class FitProblem:
 
     def minimize(self, first: FirstPass, noise: Noise, scale_covar: bool = True):
         """The pass on lmfit, from ``first``'s values: the covariance comes from it."""
+        return self.lmfit_pass(first.values, first.free, first.used, noise, scale_covar)
+
+    def lmfit_pass(self, values, free, idx, noise: Noise, scale_covar=True, bounded=True):
         return lmfit.minimize(
             self.residual,
-            self.lmfit_parameters(first.values, first.free),
-            args=(first.used, noise),
+            self.lmfit_parameters(values, free, bounded),
+            args=(idx, noise),
             method="leastsq",
             scale_covar=scale_covar,
             Dfun=self.lmfit_jacobian,
         )
+
+    def solve(self, values: dict, free, idx, noise: Noise) -> tuple:
+        """The first solve from a start: on lmfit for a model the user named (its result
+        may serve as the last pass), straight on MINPACK for a candidate. Both run the
+        same Levenberg-Marquardt from the same point (lmfit given no bounds to map)."""
+        if not self.forced:
+            return (*self.quick_minimize(values, free, idx, noise), None)
+        result = self.lmfit_pass(values, free, idx, noise, bounded=False)
+        found = result.params.valuesdict()
+        inside = all(
+            self.bounds[n][0] < found[n] < self.bounds[n][1] for n in free if n in self.bounds
+        )
+        found = {
+            k: min(max(v, self.bounds[k][0]), self.bounds[k][1]) if k in self.bounds else v
+            for k, v in found.items()
+        }
+        usable = inside and result.success and result.covar is not None
+        return found, float(result.chisqr / max(result.nfree, 1)), result if usable else None
 
     def first_pass(self, domain: str, keep_outliers: bool) -> FirstPass:
         """Start, identifiability, a fit with unit weights, outliers out and refit."""
@@ -271,7 +317,7 @@ class FitProblem:
         values, free, null_dirs = self.start_values(start)
         unit = Noise(domain, UNIT_NOISE, UNIT_NOISE)
         used = np.arange(self.sweep.points)
-        values, redchi = self.quick_minimize(values, free, used, unit)
+        values, redchi, result = self.solve(values, free, used, unit)
         if not self.f[0] <= math.exp(values["lnf0"]) <= self.f[-1] and not start.from_extremum:
             # the refinement left the sweep: try once more from the sweep's extremum and
             # keep that minimum if it stays inside (a resonance outside is refused anyway)
@@ -280,10 +326,11 @@ class FitProblem:
                 self.start_values(second)[0], free, used, unit
             )
             if self.f[0] <= math.exp(retry["lnf0"]) <= self.f[-1]:
-                values, redchi, start = retry, retry_redchi, second
+                values, redchi, start, result = retry, retry_redchi, second, None
         first = FirstPass(
             values, free, redchi, used, np.array([], dtype=int), start, null_dirs, domain
         )
+        first.result = result
         return first if keep_outliers else self.drop_outliers(first)
 
     def refine(self, first: FirstPass, values: dict, free=None, domain: str | None = None):
