@@ -109,6 +109,7 @@ def fit_sweep(
         problem, first, choice, _ = choose_topology(sweep, setup, known, domain, keep_outliers)
     else:
         problem = FitProblem(sweep, setup, get_topology(topology), known)
+        problem.may_keep_first = not noise_model.stated
         first = problem.first_pass(domain, keep_outliers)
     free_domain = not (noise_model.stated or noise_model.fixed_domain)
     if free_domain:

@@ -79,6 +79,7 @@ class FitProblem:
         self.known = known
         self.bench = Bench(sweep, terms)
         self.forced = True  # the user named the model (not chosen among candidates)
+        self.may_keep_first = True  # the first pass may stand as the last (noise estimated)
         self.f = sweep.freq_hz
         self.data = sweep.values
         self.coefficients = setup.coefficients(self.f)
@@ -95,7 +96,7 @@ class FitProblem:
     def with_terms(self, terms: tuple, topology: Topology | None = None) -> FitProblem:
         """The same problem with other bench terms switched on (and another topology)."""
         other = FitProblem(self.sweep, self.setup, topology or self.topology, self.known, terms)
-        other.forced = self.forced
+        other.forced, other.may_keep_first = self.forced, self.may_keep_first
         return other
 
     # -- the model in internal parameters -------------------------------------------------
@@ -288,10 +289,12 @@ class FitProblem:
         )
 
     def solve(self, values: dict, free, idx, noise: Noise) -> tuple:
-        """The first solve from a start: on lmfit for a model the user named (its result
-        may serve as the last pass), straight on MINPACK for a candidate. Both run the
-        same Levenberg-Marquardt from the same point (lmfit given no bounds to map)."""
-        if not self.forced:
+        """The first solve from a start: on lmfit where its result may serve as the last
+        pass (a model the user named, an estimated noise with one sigma for every
+        residual), straight on MINPACK otherwise. Both run the same Levenberg-Marquardt
+        from the same point (lmfit given no bounds to map)."""
+        one_sigma = noise.domain == "additive" or not self.sweep.is_complex
+        if not (self.forced and self.may_keep_first and one_sigma):
             return (*self.quick_minimize(values, free, idx, noise), None)
         result = self.lmfit_pass(values, free, idx, noise, bounded=False)
         found = result.params.valuesdict()
@@ -307,11 +310,12 @@ class FitProblem:
 
     def first_pass(self, domain: str, keep_outliers: bool) -> FirstPass:
         """Start, identifiability, a fit with unit weights, outliers out and refit."""
-        beyond = resonance_side(self.sweep, self.setup, self.topology, strict=True)
-        if beyond and not self.forced:
+        if not self.forced:
             # a candidate whose reading still falls at an end has no resonance inside:
             # refused before any search
-            raise self.outside_error(beyond, "the resonance")
+            beyond = resonance_side(self.sweep, self.setup, self.topology, strict=True)
+            if beyond:
+                raise self.outside_error(beyond, "the resonance")
         start = estimate_start(self.sweep, self.setup, self.topology)
         self.check_inside(start.f0_hz, "the first estimate of the resonance")
         values, free, null_dirs = self.start_values(start)
