@@ -44,45 +44,41 @@ def model_and_jacobian(problem, values: dict, names: list, idx) -> tuple:
     of ``names``, as an array of shape (points, len(names)): complex where the model is
     complex (a reading floor makes it real). A parameter held at one of its bounds
     (the model clips it there) gets a zero column."""
-    topology, setup, bench = problem.topology, problem.setup, problem.bench
+    topology, setup = problem.topology, problem.setup
     clipped = {
         k: min(max(v, problem.bounds[k][0]), problem.bounds[k][1]) if k in problem.bounds else v
         for k, v in values.items()
     }
     f, coefficients = problem.at(idx)
-    w = TWO_PI * f
     f0, _, _, extras, elements = circuit_state(problem, clipped)
     factor = topology.loss_factor(f, f0, extras)
-    loss = elements["R"] * factor
     z = topology.impedance(f, elements, factor)
     response = setup.response(z, f, coefficients)
-    slope = values["gain"] * setup.response_slope(z, coefficients)
-    partials = topology.partials(w, elements, z, loss)
-    columns = {}
-    for name in names:
-        if name in _CIRCUIT or name.startswith("ln_"):
-            shifted = dict(clipped)
-            shifted[name] = clipped[name] + 1j * _STEP
-            f0_c, _, _, extras_c, elements_c = circuit_state(problem, shifted)
-            d_factor = np.imag(topology.loss_factor(f, f0_c, extras_c)) / _STEP
-            dz = partials["loss"] * (
-                np.imag(elements_c["R"]) / _STEP * factor + elements["R"] * d_factor
-            )
-            for element, dz_de in partials.items():
-                if element != "loss":
-                    dz = dz + dz_de * (np.imag(elements_c[element]) / _STEP)
-            columns[name] = slope * dz
-        elif name == "gain":
-            columns[name] = response
-    m = values["gain"] * response
-    m, columns = bench.apply_with_derivatives(m, f, clipped, columns, names)
-    zero = np.zeros(f.size)
-    jac = np.column_stack(
-        [
-            zero if _at_bound(problem, name, values) else np.broadcast_to(columns[name], f.shape)
-            for name in names
-        ]
-    )
+    partials = topology.partials(TWO_PI * f, elements, z, elements["R"] * factor)
+    circuit = [n for n in names if n in _CIRCUIT or n.startswith("ln_")]
+    jac = np.zeros((f.size, len(names)), dtype=complex)
+    if circuit:
+        # how each element moves with each parameter: scalars, by the complex step
+        moved = [circuit_state(problem, {**clipped, n: clipped[n] + 1j * _STEP}) for n in circuit]
+        slots = list(partials)
+        by_element = np.array(
+            [[np.imag(m[4][e if e != "loss" else "R"]) / _STEP for m in moved] for e in slots]
+        )
+        columns = np.column_stack(
+            [partials[e] * (factor if e == "loss" else 1.0) + 0j * f for e in slots]
+        )
+        dz = columns @ by_element
+        if not np.isscalar(factor):  # a loss that grows with f: its factor moves too
+            d_factor = [np.imag(topology.loss_factor(f, m[0], m[3])) / _STEP for m in moved]
+            dz += (partials["loss"] * elements["R"] + 0j * f)[:, None] * np.column_stack(d_factor)
+        slope = values["gain"] * setup.response_slope(z, coefficients)
+        jac[:, [names.index(n) for n in circuit]] = slope[:, None] * dz
+    if "gain" in names:
+        jac[:, names.index("gain")] = response
+    m, jac = problem.bench.apply_with_derivatives(values["gain"] * response, f, clipped, jac, names)
+    for i, name in enumerate(names):
+        if _at_bound(problem, name, values):
+            jac[:, i] = 0.0
     return m, jac
 
 
@@ -102,20 +98,24 @@ def residual_jacobian(problem, values: dict, names: list, idx, noise, weights) -
     with np.errstate(divide="ignore", invalid="ignore"):
         if not np.iscomplexobj(data):
             size = np.abs(m)
-            d_size = (
-                np.real(np.conj(m)[:, None] * jac) / size[:, None] if np.iscomplexobj(m) else jac
-            )
+            rows = np.real(np.conj(m)[:, None] * jac) / size[:, None] if np.iscomplexobj(m) else jac
             if noise.domain == "relative":
-                d_size = d_size / size[:, None]
-            rows = d_size / _column(weights[0])
-        elif noise.domain == "additive":
-            rows = np.concatenate([jac.real / _column(weights[0]), jac.imag / _column(weights[1])])
+                rows = rows / size[:, None]
+            parts = (rows,)
         else:
-            d_log = jac / m[:, None]
-            rows = np.concatenate(
-                [d_log.real / _column(weights[0]), d_log.imag / _column(weights[1])]
-            )
-    return np.where(np.isfinite(rows), rows, 0.0)
+            if noise.domain == "relative":
+                jac = jac / m[:, None]
+            parts = (jac.real, jac.imag)
+        out = np.empty((len(parts) * m.size, len(names)))
+        for i, (part, sigma) in enumerate(zip(parts, weights)):
+            out[i * m.size : (i + 1) * m.size] = part if _is_one(sigma) else part / _column(sigma)
+    if not np.isfinite(out.sum()):
+        out[~np.isfinite(out)] = 0.0
+    return out
+
+
+def _is_one(sigma) -> bool:
+    return np.ndim(sigma) == 0 and sigma == 1.0
 
 
 def _column(sigma):

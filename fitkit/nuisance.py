@@ -59,33 +59,38 @@ class Bench:
 
     def apply(self, m: np.ndarray, f: np.ndarray, values: dict) -> np.ndarray:
         """The reading ``m`` of the circuit as this bench would show it."""
-        return self.apply_with_derivatives(m, f, values, {}, ())[0]
+        return self.apply_with_derivatives(m, f, values, None, ())[0]
 
-    def apply_with_derivatives(self, m, f, values: dict, columns: dict, names) -> tuple:
-        """:meth:`apply`, carrying the derivatives ``columns`` of ``m`` (name -> array)
-        through it and adding those of the terms' own parameters among ``names``."""
+    def apply_with_derivatives(self, m, f, values: dict, jac, names) -> tuple:
+        """:meth:`apply`, carrying the derivatives ``jac`` of ``m`` (points x ``names``)
+        through it and filling the columns of the terms' own parameters."""
+
+        def fill(name, column):
+            if name in names:
+                jac[:, names.index(name)] = column
+
         if "delay" in self.terms:
             slope = -2j * np.pi * (f / self.f_max)
             factor = np.exp(slope * values["delay_turns"])
             m = m * factor
-            columns = {k: v * factor for k, v in columns.items()}
-            if "delay_turns" in names:
-                columns["delay_turns"] = m * slope
+            if jac is not None:
+                jac = jac * factor[:, None]
+                fill("delay_turns", m * slope)
         if "tilt" in self.terms:
             log_f = np.log(f / self.f_centre)
             factor = np.exp(values["tilt"] * log_f)
             m = m * factor
-            columns = {k: v * factor for k, v in columns.items()}
-            if "tilt" in names:
-                columns["tilt"] = m * log_f
+            if jac is not None:
+                jac = jac * factor[:, None]
+                fill("tilt", m * log_f)
         if "floor" in self.terms:
             level = self.peak * math.exp(values["ln_floor"])
             floored = np.sqrt(np.abs(m) ** 2 + level**2)
-            columns = {k: np.real(np.conj(m) * v) / floored for k, v in columns.items()}
-            if "ln_floor" in names:
-                columns["ln_floor"] = level**2 / floored
+            if jac is not None:
+                jac = np.real(np.conj(m)[:, None] * jac) / floored[:, None]
+                fill("ln_floor", level**2 / floored)
             m = floored
-        return m, columns
+        return m, jac
 
     def start(self, term: str, f: np.ndarray, model: np.ndarray, data: np.ndarray) -> float:
         """A starting value from the circuit-only fit's model and the data."""
