@@ -55,11 +55,10 @@ def choose_topology(sweep, setup, known, domain: str, keep_outliers: bool) -> tu
     A richer circuit that contains a plainer one already fitted (the coil contains the
     series circuit, each sqrt(f) loss its plain circuit) is first screened from the
     plainer one's fit (:func:`_screened_score`) and fitted only when it could win."""
-    trials, failed, score = {}, {}, {}
+    trials, failed, screened = {}, {}, {}
     for name in _PLAIN:
-        base = trials.get("series") if name == "coil" else None
         try:
-            if base is not None and _screened(score, base, TOPOLOGIES[name], name):
+            if name == "coil" and _screened(screened, trials, "series", TOPOLOGIES[name]):
                 continue
             problem = FitProblem(sweep, setup, TOPOLOGIES[name], known)
             problem.forced = False  # the model is being chosen, not imposed
@@ -70,7 +69,7 @@ def choose_topology(sweep, setup, known, domain: str, keep_outliers: bool) -> tu
             )
             trials[name] = (problem, first)
             grown = TOPOLOGIES[f"{name}-sqrtf"]
-            if _screened(score, (problem, first), grown, grown.name):
+            if _screened(screened, trials, name, grown):
                 continue
             grown_problem = problem.with_terms(problem.bench.terms, grown)
             values = {**first.values, "ln_skin": 0.0}
@@ -86,8 +85,10 @@ def choose_topology(sweep, setup, known, domain: str, keep_outliers: bool) -> tu
     common = np.arange(sweep.points)
     for _, first in trials.values():
         common = np.intersect1d(common, first.used)
-    fitted = {name: bic(problem, first, common) for name, (problem, first) in trials.items()}
-    score = {**{n: s for n, s in score.items() if n in trials or n not in failed}, **fitted}
+    score = {name: bic(problem, first, common) for name, (problem, first) in trials.items()}
+    # a screened circuit scores as its plainer one plus the change the screen predicted:
+    # never better by EVIDENCE, so the plainer one is reported, as when both were fitted
+    score.update({n: score[base] + change for n, (base, change) in screened.items()})
     ranked = sorted(score, key=score.get)
     winner = ranked[0]
     close = [n for n in ranked[1:] if score[n] - score[winner] < EVIDENCE]
@@ -124,14 +125,15 @@ def _nearly_off(extra: str, problem: FitProblem) -> float:
     return math.log(problem.f[-1]) + 4.0 if extra == "f_self_hz" else -6.0
 
 
-def _screened(score: dict, base: tuple, topology, name: str) -> bool:
-    """Record the predicted criterion of ``topology`` in ``score`` and say whether it
-    cannot win: it is then not fitted."""
-    predicted = _screened_score(*base, topology)
-    problem, first = base
-    plain = bic(problem, first, first.used)
-    if predicted > plain - EVIDENCE + _SCREEN_MARGIN:
-        score[name] = predicted
+def _screened(screened: dict, trials: dict, base: str, topology) -> bool:
+    """Whether ``topology`` cannot win over the fitted circuit ``base`` (then it is not
+    fitted, and the criterion change the screen predicts is kept in ``screened``)."""
+    if base not in trials:
+        return False
+    problem, first = trials[base]
+    change = _screened_score(problem, first, topology) - bic(problem, first, first.used)
+    if change > _SCREEN_MARGIN - EVIDENCE:
+        screened[topology.name] = (base, change)
         return True
     return False
 

@@ -167,3 +167,29 @@ def test_choice_says_cannot_tell_on_a_narrow_sweep():
     fit = fit_sweep(_noisy(setup, z, f, seed=53), setup, topology="auto")
     assert fit.topology == "series"
     assert "no clear evidence" in fit.choice
+
+
+def _criterion(fit, free: int) -> float:
+    """Schwarz's criterion with the noise level unknown (Ann. Stat. 6, 1978),
+    n ln(RSS / n) + k ln n, from a fit's own model curve (additive, complex)."""
+    _, data, model = fit.model_curve
+    r = np.concatenate([(model - data).real, (model - data).imag])
+    return r.size * math.log(np.sum(r**2) / r.size) + free * math.log(r.size)
+
+
+@pytest.mark.parametrize("above", [4.0, 8.0, 12.0, 15.0, 30.0])
+@pytest.mark.parametrize("seed", [61, 62, 63])
+def test_screened_choice_agrees_with_fitting_both(above, seed):
+    """auto screens the coil from the series fit instead of fitting it where it cannot
+    win; its choice must be the one the criterion gives when both are fitted in full
+    (a self-resonance ``above`` times the sweep's top, from plain to clearly there)."""
+    setup = SETUPS["series-through"]
+    f = np.linspace(1.2e6, 1.9e6, 301)
+    c_self = 1.0 / ((TWO_PI * above * f[-1]) ** 2 * 100e-6)
+    sweep = _noisy(setup, coil_in_series(f, 5.0, 100e-6, 100e-12, c_self), f, seed=seed)
+    series = _criterion(fit_sweep(sweep, setup, topology="series", noise="additive"), 3)
+    coil = _criterion(fit_sweep(sweep, setup, topology="coil", noise="additive"), 4)
+    if abs(series - coil - 10.0) < 3.0:
+        pytest.skip("too close to the evidence threshold to call")
+    chosen = fit_sweep(sweep, setup, topology="auto", noise="additive")
+    assert chosen.topology == ("coil" if coil < series - 10.0 else "series"), chosen.choice
