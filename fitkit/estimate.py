@@ -298,7 +298,7 @@ def resonance_side(sweep: Sweep, setup: Setup, topology: Topology, strict: bool 
     itself: still falling there, so no resonance of this shape can lie inside.
     """
     t = _dip_at_resonance(setup, np.abs(sweep.values), topology)
-    ok = np.isfinite(t)
+    ok = np.isfinite(t) & (t > 0)  # (noise can lift a reflection above 1: no power there)
     if ok.sum() < 5:
         return None
     t = t[ok]
