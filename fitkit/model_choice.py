@@ -22,7 +22,7 @@ import numpy as np
 from fitkit.adequacy import check_structure
 from fitkit.errors import FitError
 from fitkit.noise import RELATIVE_EVIDENCE, Noise, relative_evidence
-from fitkit.nuisance import PARAMETER, applicable
+from fitkit.nuisance import NEUTRAL, PARAMETER, applicable
 from fitkit.problem import UNIT_NOISE, FirstPass, FitProblem
 from fitkit.topologies import TOPOLOGIES
 from fitkit.units import format_quantity
@@ -139,19 +139,24 @@ def _screened(screened: dict, trials: dict, base: str, topology) -> bool:
 
 
 def _screened_score(problem: FitProblem, first: FirstPass, topology) -> float:
-    """The criterion a richer circuit could reach from the plainer one's fit, by one
-    Gauss-Newton step with its extra parameter all but switched off: the score
-    (Lagrange multiplier) test of the extra parameter (Rao, Proc. Camb. Phil. Soc. 44,
-    1948; for least squares the regression of the residuals on the full Jacobian, e.g.
-    Seber & Wild, Nonlinear Regression, 1989, sec. 5.9, from memory). It predicts the
-    fit's gain well when the extra term is small, which is when it cannot win; a large
-    predicted gain sends the candidate to a full fit."""
-    richer = problem.with_terms(problem.bench.terms, topology)
+    """The criterion the richer circuit ``topology`` could reach from the plainer one's
+    fit (see :func:`_predicted_criterion`), its extra parameter all but switched off."""
     extra = {
         f"ln_{name}": _nearly_off(name, problem)
         for name in topology.extras
         if f"ln_{name}" not in first.values
     }
+    return _predicted_criterion(problem.with_terms(problem.bench.terms, topology), first, extra)
+
+
+def _predicted_criterion(richer: FitProblem, first: FirstPass, extra: dict) -> float:
+    """The criterion a richer model could reach from a plainer one's fit by one
+    Gauss-Newton step, its extra parameters set where they (all but) vanish: the score
+    (Lagrange multiplier) test of those parameters (Rao, Proc. Camb. Phil. Soc. 44,
+    1948; for least squares the regression of the residuals on the full Jacobian, e.g.
+    Seber & Wild, Nonlinear Regression, 1989, sec. 5.9, from memory). It predicts the
+    fit's gain well when the extra term is small, which is when it cannot win; a large
+    predicted gain sends the richer model to a full fit."""
     values = {**first.values, **extra}
     free = (*first.free, *extra)
     unit = Noise(first.domain, UNIT_NOISE, UNIT_NOISE)
@@ -221,7 +226,7 @@ def add_bench_terms(problem: FitProblem, first: FirstPass) -> tuple:
     """Switch on the bench terms that earn their place, one at a time. Only residuals
     with some order in them (runs or slow waves at a loose 5 % level) can hide a term
     worth 10 in the criterion, so a sweep whose residuals look white is spared the
-    trials."""
+    trials; a term the score test says cannot earn it is not tried either."""
     if not _has_structure(problem, first):
         return problem, first
     current, current_first = problem, first
@@ -231,6 +236,9 @@ def add_bench_terms(problem: FitProblem, first: FirstPass) -> tuple:
         tried = {}
         for term in remaining:
             trial = current.with_terms((*current.bench.terms, term))
+            neutral = {PARAMETER[term]: NEUTRAL[PARAMETER[term]]}
+            if _predicted_criterion(trial, current_first, neutral) > score - _SCREEN_MARGIN:
+                continue
             values = current_first.values
             model = current.model(values, first.used)
             start = trial.bench.start(term, problem.f[first.used], model, problem.data[first.used])
