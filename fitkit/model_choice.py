@@ -219,6 +219,13 @@ def choose_noise_domain(problem: FitProblem, first: FirstPass, default: str) -> 
         domain = default
     if domain == first.domain:
         return first, evidence
+    if first.outliers.size:
+        # points judged far in the other domain are judged again in this one (noise in
+        # proportion to the reading makes the peak look wild to an even-noise fit)
+        every = first.moved(first.values, domain=domain)
+        every.used, every.outliers = np.arange(problem.sweep.points), first.outliers[:0]
+        every.outlier_reasons = []
+        return problem.drop_outliers(problem.refine(every, first.values)), evidence
     return problem.refine(first, first.values, domain=domain), evidence
 
 

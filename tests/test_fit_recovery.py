@@ -180,3 +180,20 @@ def test_scatter_that_grows_with_the_reading_is_pointed_out():
     assert fixed.stats.noise.startswith("relative")
     assert not any("scatter grows" in w for w in fixed.stats.warnings)
     _within(fixed, "L", TRUTH["L"])
+
+
+@pytest.mark.parametrize("seed", [0, 1, 2])
+def test_outliers_judged_in_the_noise_model_chosen(seed):
+    """Noise in proportion to the reading makes the points near the peak look wild to a
+    first fit with even noise; once the proportional model is chosen they are judged
+    again and kept, while a real glitch is still dropped (an outlier is a point far
+    from the model in the noise model the data follow)."""
+    setup = SETUPS["divider-terminal"]
+    clean = make_sweep(setup, seed=seed, points=801, noise=1e-3, relative_noise=True)
+    values = clean.values.copy()
+    glitch = 600
+    values[glitch] *= 1.5
+    sweep = type(clean)(clean.freq_hz, values, clean.kind)
+    fit = fit_sweep(sweep, setup)
+    assert fit.stats.noise.startswith("relative"), fit.stats.noise
+    assert fit.stats.outliers_hz == [float(clean.freq_hz[glitch])]
