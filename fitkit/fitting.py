@@ -191,7 +191,7 @@ def _finish(problem: FitProblem, first: FirstPass, noise: Noise, judged: list) -
 
 def _to_result(problem, result, first: FirstPass, noise: Noise, judged: list) -> CircuitFit:
     quantities, undetermined, uvalues = _quantities(problem, result, first.null_dirs)
-    problem.check_inside(quantities["f0_hz"].value, "the fitted resonance")
+    problem.check_inside(quantities["f0"].value, "the fitted resonance")
     used = first.used
     a, b = problem.raw_residual(result.params.valuesdict(), used, noise.domain)
     if noise.domain == "relative":
@@ -242,7 +242,7 @@ def _to_result(problem, result, first: FirstPass, noise: Noise, judged: list) ->
         stats=stats,
         setup=problem.setup.to_dict(),
         sweep=_sweep_info(problem),
-        known={k: {"value": v, "stderr": s} for k, (v, s) in problem.known.items()},
+        known={k: {"value": v, "u": s} for k, (v, s) in problem.known.items()},
         undetermined=undetermined,
     )
     fit.model_curve = (problem.f, problem.data, problem.model(result.params.valuesdict()))
