@@ -17,7 +17,6 @@ from fitkit.units import format_quantity, format_to
 from fitkit.version import __version__
 
 
-
 def nominal(x) -> float:
     """The value of a float or an ``uncertainties`` number."""
     return float(getattr(x, "nominal_value", x))

@@ -60,7 +60,7 @@ def test_twenty_db_at_ten_khz_needs_q_of_about_500():
     assert limit.r_max_ohm + 5.0 == pytest.approx(TWO_PI * 1e6 * l_h / 500.0, rel=0.002)
 
 
-@pytest.mark.parametrize(("f0", "ratio"), [(1000e3, 138.6), (25e6, 7.22)])
+@pytest.mark.parametrize(("f0_hz", "ratio"), [(1000e3, 138.6), (25e6, 7.22)])
 def test_superheterodyne_image_rejection(f0_hz, ratio):
     # Kennedy & Davis, Electronic Communication Systems, ch. 6 (from memory): loaded Q = 100,
     # IF 455 kHz, oscillator above: image at f0 + 910 kHz; 1000 kHz -> 138.6 (42.8 dB),
