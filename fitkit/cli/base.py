@@ -63,7 +63,7 @@ def reports_errors(func):
     def wrapper(*args, **kwargs):
         try:
             with warnings.catch_warnings():
-                warnings.simplefilter("always", OldNameWarning)
+                warnings.simplefilter("default", OldNameWarning)  # each note once
                 warnings.showwarning = _note_or_warning(warnings.showwarning)
                 return func(*args, **kwargs)
         except FitkitError as exc:
