@@ -128,7 +128,9 @@ def upgrade_fit(data: dict) -> dict:
     written before (no ``format`` key) is translated, a new dict returned."""
     if not isinstance(data, dict) or data.get("format", 1) >= FIT_FORMAT:
         return data
-    out = dict(upgrade_entries(data), format=FIT_FORMAT)
+    out = dict(data, format=FIT_FORMAT)
+    for part in ("values", "derived", "known"):  # the setup and the file's facts keep theirs
+        out[part] = upgrade_entries(data.get(part, {}))
     for part in ("correlations", "covariance"):
         if isinstance(out.get(part), dict) and isinstance(out[part].get("names"), list):
             out[part] = dict(out[part], names=[renamed_key(n) for n in out[part]["names"]])
