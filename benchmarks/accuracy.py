@@ -102,7 +102,7 @@ def noisy_sweep(cell: Cell, rng: np.random.Generator, points: int = POINTS) -> t
 
 def by_fitkit(sweep: Sweep) -> tuple:
     fit = fit_sweep(sweep, SETUP)
-    f0, ql = fit["f0_hz"], fit["Q_loaded"]
+    f0, ql = fit["f0"], fit["Q_loaded"]
     return f0.value, ql.value, f0.stderr, ql.stderr
 
 
@@ -159,7 +159,7 @@ def run_cell(job: tuple) -> dict:
                 Noise("additive", sigma),
                 complex_data=cell.complex_data,
             )
-            bound = np.array([b["f0_hz"].stderr, b["Q_loaded"].stderr])
+            bound = np.array([b["f0"].stderr, b["Q_loaded"].stderr])
         for method in METHODS:
             t = time.perf_counter()
             try:

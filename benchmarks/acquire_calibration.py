@@ -24,13 +24,13 @@ from fitkit.instruments.session import SweepRequest, take_sweep
 from fitkit.instruments.simbench import SimulatedBench
 
 SEEDS = range(1, 21)
-NAMES = ("R", "L", "C", "f0_hz")
+NAMES = ("R", "L", "C", "f0")
 
 
 def errors(name: str, seed: int, equal_noise: bool, folder: Path) -> list:
     sim = scenario_model(name, seed=seed)
     truth = {"R": sim.r_ohm, "L": sim.l_h, "C": sim.c_f}
-    truth["f0_hz"] = 1 / (2 * math.pi * math.sqrt(sim.l_h * sim.c_f))
+    truth["f0"] = 1 / (2 * math.pi * math.sqrt(sim.l_h * sim.c_f))
     settings = ReadSettings(settle_periods=0, settle_min_s=0, equal_noise=equal_noise)
     request = SweepRequest(*SCENARIOS[name][2], topology=sim.topology, target_rel=0.002)
     with SimulatedBench(sim) as bench:

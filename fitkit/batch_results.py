@@ -27,7 +27,7 @@ from fitkit.batch_output import (
     load_record,
     record_file,
 )
-from fitkit.result import QUANTITIES
+from fitkit.names import QUANTITIES, renamed_key, upgrade_entries, upgrade_fit
 from fitkit.spec import Spec, judge
 from fitkit.units import format_quantity
 from fitkit.version import __version__
@@ -45,11 +45,11 @@ STAND_OUT_RULE = (
 
 
 def _values(fit: dict | None) -> dict:
-    """``{quantity: (value, stderr)}`` from a saved fit dict (empty if not fitted)."""
+    """``{quantity: (value, u)}`` from a saved fit dict (empty if not fitted)."""
     if not fit:
         return {}
     entries = {**fit["values"], **fit["derived"]}
-    return {q: (e["value"], e["stderr"]) for q, e in entries.items()}
+    return {q: (e["value"], e["u"]) for q, e in entries.items()}
 
 
 def _outside_text(outside: dict) -> str:
@@ -62,7 +62,7 @@ def make_row(record: dict, spec: Spec | None, record_name: str = "") -> dict:
     """One input's row: file, checksum, status, verdict, reason, every value in SI with
     its standard uncertainty, a verdict per specified value, marks (stand-out, fit
     warnings, doubtful values, identical files), the setup file and the record."""
-    fit = record.get("fit")
+    fit = upgrade_fit(record.get("fit"))  # a record of an earlier version keeps its names
     values = _values(fit)
     row = {k: record.get(k) for k in ("file", "sha256", "status")}
     row["verdict"] = "not fitted" if fit is None else ""
@@ -81,7 +81,7 @@ def make_row(record: dict, spec: Spec | None, record_name: str = "") -> dict:
             row["reason"] = f"{_outside_text(record['outside'])}: {row['reason']}"
     row["stands_out"] = ""
     row["warnings"] = "; ".join(fit["fit"]["warnings"]) if fit else ""
-    doubtful = record.get("doubtful") or {}
+    doubtful = upgrade_entries(record.get("doubtful") or {})
     row["doubtful"] = "; ".join(f"{name}: {why}" for name, why in doubtful.items())
     row["same_bytes_as"] = ""
     row["setup_file"] = record.get("setup_file")
@@ -278,8 +278,8 @@ def readable(row: dict) -> dict:
     out = {}
     for key, value in row.items():
         if key in QUANTITIES:
-            unit, stderr = QUANTITIES[key][0], row[f"{key}_u"]
-            out[key] = "" if value is None else format_quantity(value, unit, stderr)
+            unit, u = QUANTITIES[key][0], row[f"{key}_u"]
+            out[key] = "" if value is None else format_quantity(value, unit, u)
         elif not (key.endswith("_u") and key[:-2] in QUANTITIES):
             out[key] = value
     return out
@@ -321,5 +321,15 @@ def write_results(
 
 
 def load_results(out: Path) -> dict:
-    """``results.json`` of a batch folder (for the HTML report)."""
-    return json.loads((out / RESULTS_JSON).read_text(encoding="utf-8"))
+    """``results.json`` of a batch folder (for the HTML report), in today's names: the
+    columns and values an earlier version wrote as ``f0_hz`` are read as ``f0``.
+
+    Raises
+    ------
+    FileNotFoundError, ValueError, KeyError
+        When the file is missing or is not a batch's results.
+    """
+    data = upgrade_entries(json.loads((out / RESULTS_JSON).read_text(encoding="utf-8")))
+    for item in data.get("stand_out", []):
+        item["value"] = renamed_key(item["value"])
+    return data

@@ -27,8 +27,7 @@ from fitkit.units import format_quantity
 
 #: |z| above this is a significant change (k = 2, about 95 % for a normal distribution)
 SIGNIFICANT_Z = 2.0
-_WORDS = {"R": "R", "L": "L", "C": "C", "f0_hz": "f0", "Q": "Q", "Q_loaded": "loaded Q",
-          "bandwidth_hz": "bandwidth", "loaded_bandwidth_hz": "loaded bandwidth"}  # fmt: skip
+_WORDS = {"Q_loaded": "loaded Q", "loaded_bandwidth": "loaded bandwidth"}
 
 
 @dataclass(frozen=True)
@@ -87,7 +86,7 @@ class Side:
     source : str
         The file (or "nominal values").
     values : dict
-        ``{quantity: (value, stderr)}``; nominal values with stderr 0.
+        ``{quantity: (value, u)}``; nominal values with u = 0.
     warnings : tuple of str
         The fit's warnings.
     doubtful : dict
@@ -104,7 +103,7 @@ class Side:
 
 
 def fit_values(fit: CircuitFit) -> dict:
-    """``{quantity: (value, stderr)}`` of the values a fit determined."""
+    """``{quantity: (value, u)}`` of the values a fit determined."""
     return {n: (q.value, q.stderr or 0.0) for n, q in fit.quantities.items() if q.value is not None}
 
 
@@ -124,7 +123,7 @@ def compare(unit, reference) -> list[Change]:
     Parameters
     ----------
     unit, reference : Side or dict
-        A :class:`Side`, or its ``{quantity: (value, stderr)}``.
+        A :class:`Side`, or its ``{quantity: (value, u)}``.
     """
     unit, reference = (x if isinstance(x, Side) else Side("", x) for x in (unit, reference))
     now, ref = unit.values, reference.values
@@ -142,7 +141,7 @@ def _doubt(name: str, unit: Side, reference: Side) -> str:
 
 
 def _move(change: Change | None) -> str:
-    word = _WORDS[change.name] if change else ""
+    word = _WORDS.get(change.name, change.name) if change else ""
     if change is None:
         return ""
     if not change.significant:
@@ -164,16 +163,16 @@ def reading(changes: list[Change]) -> list[str]:
 
     Examples
     --------
-    >>> ref = {"f0_hz": (100e3, 10.0), "Q": (50.0, 0.2), "R": (10.0, 0.1),
+    >>> ref = {"f0": (100e3, 10.0), "Q": (50.0, 0.2), "R": (10.0, 0.1),
     ...        "L": (1e-3, 1e-6), "C": (2.533e-9, 3e-12)}
-    >>> now = {"f0_hz": (97.1e3, 10.0), "Q": (48.6, 0.2), "R": (10.0, 0.1),
+    >>> now = {"f0": (97.1e3, 10.0), "Q": (48.6, 0.2), "R": (10.0, 0.1),
     ...        "L": (1e-3, 1e-6), "C": (2.687e-9, 3e-12)}
     >>> reading(compare(now, ref))[0]
     'f0 down 2.9%, Q down 2.8%: C has grown by about 6.1%; R and L within their uncertainty'
     """
     by = {c.name: c for c in changes}
     q = by.get("Q") or by.get("Q_loaded")
-    head = ", ".join(p for p in (_move(by.get("f0_hz")), _move(q)) if p)
+    head = ", ".join(p for p in (_move(by.get("f0")), _move(q)) if p)
     parts = [by[n] for n in ("R", "L", "C") if n in by]
     if parts:
         moved = [c for c in parts if c.significant]
@@ -183,11 +182,11 @@ def reading(changes: list[Change]) -> list[str]:
             causes.append(f"{_names(steady)} within {'its' if len(steady) == 1 else 'their'} "
                           "uncertainty")  # fmt: skip
         lines = [f"{head}: {'; '.join(causes)}" if head else "; ".join(causes)]
-        if "L" in by and "C" in by and "f0_hz" in by:
+        if "L" in by and "C" in by and "f0" in by:
             implied = (1 + by["L"].relative) * (1 + by["C"].relative)
             lines.append(
                 f"the change in L*C implies f0 {(implied**-0.5 - 1) * 100:+.1f}% "
-                f"(f0 ~ 1/sqrt(LC)); measured {by['f0_hz'].relative * 100:+.1f}%"
+                f"(f0 ~ 1/sqrt(LC)); measured {by['f0'].relative * 100:+.1f}%"
             )
         return lines
     return _relative_reading(by, head)
@@ -196,7 +195,7 @@ def reading(changes: list[Change]) -> list[str]:
 def _relative_reading(by: dict, head: str) -> list[str]:
     """The reading when the sweeps fixed only f0 and the loaded Q (no scale)."""
     lines = [head] if head else []
-    f0 = by.get("f0_hz")
+    f0 = by.get("f0")
     if f0 is not None and f0.significant:
         lc = (1 + f0.relative) ** -2 - 1
         lines.append(
@@ -227,7 +226,7 @@ def corrections(changes: list[Change]) -> list[str]:
     """
     by = {c.name: c for c in changes}
     out = []
-    f0 = by.get("f0_hz")
+    f0 = by.get("f0")
     if f0 is not None and f0.significant and not {"L", "C"} & set(by):
         lc = (1 + f0.relative) ** -2 - 1
         out.append(

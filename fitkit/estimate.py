@@ -205,7 +205,7 @@ def _extras_guess(f, magnitude, setup, topology: Topology, f0, z=None) -> dict:
     """The coil's self-resonance (a second resonance above f0 if the sweep shows one)
     and, for a loss growing as sqrt(f), an even share of growing loss at f0."""
     out = {"skin": 1.0} if "skin" in topology.extras else {}
-    if "f_self_hz" not in topology.extras:
+    if "f_self" not in topology.extras:
         return out
     return {**out, **_self_resonance_guess(f, magnitude, setup, topology, f0, z)}
 
@@ -217,13 +217,13 @@ def _self_resonance_guess(f, magnitude, setup, topology: Topology, f0, z) -> dic
         x = z.imag
         cross = np.flatnonzero(above[:-1] & (x[:-1] > 0) & (x[1:] <= 0))
         if cross.size:
-            return {"f_self_hz": float(f[cross[0]])}
+            return {"f_self": float(f[cross[0]])}
     t = _dip_at_resonance(setup, magnitude, topology)  # peaks at the coil's own resonance
     if above.sum() > 3:
         i = int(np.nanargmax(np.where(above, t, -np.inf)))
         if 0 < i < f.size - 1:
-            return {"f_self_hz": float(f[i])}
-    return {"f_self_hz": float(3.0 * f[-1])}
+            return {"f_self": float(f[i])}
+    return {"f_self": float(3.0 * f[-1])}
 
 
 class _Search:

@@ -23,7 +23,7 @@ from fitkit.units import format_quantity
 
 MIN_POINTS_IN_BAND = 5
 #: what a sparse band or an open band edge undermines: the width and what follows from it
-_WIDTH = ("R", "Q", "Q_loaded", "bandwidth_hz", "loaded_bandwidth_hz", "R_dynamic", "R_dc")
+_WIDTH = ("R", "Q", "Q_loaded", "bandwidth", "loaded_bandwidth", "R_dynamic", "R_dc")
 _WIDTH += ("k_skin", "R_self")
 
 
@@ -38,7 +38,7 @@ def fit_warnings(problem, result, redchi: float, q: dict, first, noise) -> list:
             (
                 f"R came out at {r.text()}: the fixture resistance in the setup ({ext}) is at "
                 "least the whole loop resistance found; check the sense and source resistance",
-                ("R", "Q", "bandwidth_hz"),
+                ("R", "Q", "bandwidth"),
             )
         )
     elif r.determined and r.value < 2.0 * r.stderr:
@@ -71,7 +71,7 @@ def fit_warnings(problem, result, redchi: float, q: dict, first, noise) -> list:
                 f"a magnitude-only {problem.sweep.kind} sweep fits R = "
                 f"{format_quantity(other, 'ohm')} about as well as the value reported; "
                 "measure the phase too to tell them apart",
-                ("R", "Q", "bandwidth_hz", "L", "C"),
+                ("R", "Q", "bandwidth", "L", "C"),
             )
         )
     out.extend(_adequacy(problem, result, noise, used))
@@ -115,7 +115,7 @@ def _band_warnings(problem, q: dict, used, values: dict) -> list:
         )
     inside = points_in_band(problem, q, used)
     if inside is not None and inside < MIN_POINTS_IN_BAND:
-        f0, half = q["f0_hz"].value, q["f0_hz"].value / (2.0 * q["Q_loaded"].value)
+        f0, half = q["f0"].value, q["f0"].value / (2.0 * q["Q_loaded"].value)
         out.append(
             (
                 f"only {inside} points lie within the half-power band "
@@ -132,8 +132,8 @@ def points_in_band(problem, q: dict, used) -> int | None:
     """How many points kept lie within the loaded half-power band (None: not known)."""
     if not q["Q_loaded"].determined:
         return None
-    half = q["f0_hz"].value / (2.0 * q["Q_loaded"].value)
-    return int(np.sum(np.abs(problem.f[used] - q["f0_hz"].value) <= half))
+    half = q["f0"].value / (2.0 * q["Q_loaded"].value)
+    return int(np.sum(np.abs(problem.f[used] - q["f0"].value) <= half))
 
 
 def _adequacy(problem, result, noise, used) -> list:

@@ -47,7 +47,7 @@ from fitkit.result import (
 from fitkit.setups import Setup
 from fitkit.sweep import Sweep
 from fitkit.topologies import get_topology
-from fitkit.units import format_quantity
+from fitkit.units import format_quantity, format_to
 
 
 def fit_sweep(
@@ -199,7 +199,7 @@ def _finish(problem: FitProblem, first: FirstPass, noise: Noise, judged: list) -
 
 def _to_result(problem, result, first: FirstPass, noise: Noise, judged: list) -> CircuitFit:
     quantities, undetermined, determined, covariance = _quantities(problem, result, first.null_dirs)
-    problem.check_inside(quantities["f0_hz"].value, "the fitted resonance")
+    problem.check_inside(quantities["f0"].value, "the fitted resonance")
     used = first.used
     a, b = problem.raw_residual(result.params.valuesdict(), used, noise.domain)
     if noise.domain == "relative":
@@ -249,7 +249,7 @@ def _to_result(problem, result, first: FirstPass, noise: Noise, judged: list) ->
         stats=stats,
         setup=problem.setup.to_dict(),
         sweep=_sweep_info(problem),
-        known={k: {"value": v, "stderr": s} for k, (v, s) in problem.known.items()},
+        known={k: {"value": v, "u": s} for k, (v, s) in problem.known.items()},
         undetermined=undetermined,
     )
     fit.model_curve = (problem.f, problem.data, problem.model(result.params.valuesdict()))
@@ -271,15 +271,14 @@ def _with_intervals(problem, result, used, noise, quantities: dict) -> dict:
         q = out[name]
         low, high = min(low, q.value), max(high, q.value)
         doubtful = q.doubtful
+        u = max(q.stderr, 0.5 * (high - low))
         if not doubtful and high - low > _POORLY_PINNED * abs(q.value):
             # a spread this wide is not a normal error bar: the estimate is lopsided
             doubtful = (
                 f"poorly pinned by this sweep: its 68% interval runs from "
-                f"{format_quantity(low, q.unit)} to {format_quantity(high, q.unit)}"
+                f"{format_to(low, q.unit, u)} to {format_to(high, q.unit, u)}"
             )
-        out[name] = dataclasses.replace(
-            q, interval=(low, high), stderr=max(q.stderr, 0.5 * (high - low)), doubtful=doubtful
-        )
+        out[name] = dataclasses.replace(q, interval=(low, high), stderr=u, doubtful=doubtful)
     for name in set(names) - set(found):
         q = out[name]
         if not q.doubtful and q.stderr > 0.5 * _POORLY_PINNED * abs(q.value):

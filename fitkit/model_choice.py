@@ -122,7 +122,7 @@ _SCREEN_MARGIN = 0.5 * EVIDENCE
 def _nearly_off(extra: str, problem: FitProblem) -> float:
     """Where a richer circuit's extra parameter is all but switched off: a
     self-resonance e^4 (55) times above the sweep, a growing loss e^-6 of the loss."""
-    return math.log(problem.f[-1]) + 4.0 if extra == "f_self_hz" else -6.0
+    return math.log(problem.f[-1]) + 4.0 if extra == "f_self" else -6.0
 
 
 def _screened(screened: dict, trials: dict, base: str, topology) -> bool:

@@ -119,8 +119,8 @@ class _CircuitModel(lmfit.Model):
         comps = topology.components(setup, start.f0_hz, start.q, start.scale_ohm, start.extras)
         r = float(comps["R"])
         values = {"R": r, "f0": start.f0_hz, "Q": TWO_PI * start.f0_hz * float(comps["L"]) / r}
-        if "f_self_hz" in start.extras:
-            values["f_self"] = float(start.extras["f_self_hz"])
+        if "f_self" in start.extras:
+            values["f_self"] = float(start.extras["f_self"])
         values["skin"] = float(start.extras.get("skin", 0.0))
         params = self.make_params(**{self.prefix + k: v for k, v in values.items()})
         return update_param_vals(params, self.prefix, **kwargs)

@@ -28,8 +28,6 @@ PARAMETER = {"delay": "delay_turns", "tilt": "tilt", "floor": "ln_floor"}
 BOUNDS = {"delay_turns": (-20.0, 20.0), "tilt": (-3.0, 3.0), "ln_floor": (-25.0, 0.5)}
 #: where a term starts when no fit has suggested a value (no delay, no tilt, a low floor)
 NEUTRAL = {"delay_turns": 0.0, "tilt": 0.0, "ln_floor": -10.0}
-#: reported quantity of each term (see fitkit.result.QUANTITIES)
-REPORTED = {"delay": "delay_s", "tilt": "tilt_db_per_decade", "floor": "floor_db"}
 
 
 def applicable(sweep, setup) -> tuple:
@@ -107,11 +105,11 @@ class Bench:
         """Reported values (plain or ``uncertainties`` numbers) of the terms switched on."""
         out = {}
         if "delay" in self.terms:
-            out["delay_s"] = values["delay_turns"] / self.f_max
+            out["delay"] = values["delay_turns"] / self.f_max
         if "tilt" in self.terms:
-            out["tilt_db_per_decade"] = 20.0 * values["tilt"]
+            out["tilt"] = 20.0 * values["tilt"]
         if "floor" in self.terms:
-            out["floor_db"] = values["ln_floor"] * (20.0 / math.log(10.0))
+            out["floor"] = values["ln_floor"] * (20.0 / math.log(10.0))
         return out
 
     def describe(self) -> str:

@@ -44,7 +44,7 @@ from fitkit.units import format_quantity
 SPACINGS = ("linear", "log")
 #: what the bound covers for every model, named as in a fit's quantities (a model's own
 #: extras, such as a tank's dynamic resistance, come on top: :data:`fitkit.result.OPTIONAL`)
-BOUNDED = ("R", "L", "C", "f0_hz", "Q", "Q_loaded", "bandwidth_hz", "loaded_bandwidth_hz")
+BOUNDED = ("R", "L", "C", "f0", "Q", "Q_loaded", "bandwidth", "loaded_bandwidth")
 #: the kind of reading each bench gives
 READING_OF_BENCH = {
     "divider": "ratio",
@@ -376,7 +376,7 @@ def resonance(
     """
     planned = _Planned(setup, Expected(r_ohm, l_h, c_f, model, **extra))
     values = planned.values(planned.base)
-    return values["f0_hz"], values["Q_loaded"]
+    return values["f0"], values["Q_loaded"]
 
 
 def _check_circuit(r_ohm: float, l_h: float, c_f: float) -> None:

@@ -227,7 +227,7 @@ class Prediction:
             "chain": self.chain.to_dict(),
             "wanted_hz": self.wanted_hz,
             "tune_hz": self.tune_hz,
-            "q_loaded": _udict(self.q_loaded, ""),
+            "Q_loaded": _udict(self.q_loaded, ""),
             "c_range_f": None if self.c_range_f is None else list(self.c_range_f),
             "extremum": {
                 "kind": self.chain.extremum,
@@ -408,4 +408,4 @@ def value_and_error(x) -> tuple:
 
 def _udict(x, unit: str) -> dict:
     value, err = value_and_error(x)
-    return {"value": value, "stderr": err, "unit": unit}
+    return {"value": value, "u": err, "unit": unit}

@@ -12,42 +12,9 @@ import numpy as np
 from uncertainties import correlated_values, ufloat
 
 from fitkit.errors import InputError
-from fitkit.units import format_quantity
+from fitkit.names import COMPONENTS, FIT_FORMAT, OPTIONAL, QUANTITIES, upgrade_fit
+from fitkit.units import format_quantity, format_to
 from fitkit.version import __version__
-
-#: name -> (unit, label) for everything a fit reports
-QUANTITIES = {
-    "R": ("ohm", "R (circuit loss)"),
-    "L": ("H", "L"),
-    "C": ("F", "C"),
-    "f0_hz": ("Hz", "f0 (resonance)"),
-    "Q": ("", "Q (circuit, unloaded)"),
-    "Q_loaded": ("", "Q (loaded, as the bench saw it)"),
-    "bandwidth_hz": ("Hz", "bandwidth -3 dB (circuit)"),
-    "loaded_bandwidth_hz": ("Hz", "bandwidth -3 dB (loaded)"),
-    "R_dynamic": ("ohm", "dynamic resistance (tank at f0)"),
-    "C_self": ("F", "C self (coil self-capacitance)"),
-    "f_self_hz": ("Hz", "f self (coil self-resonance)"),
-    "R_dc": ("ohm", "R dc (loss as f -> 0)"),
-    "k_skin": ("ohm/sqrt(Hz)", "k (loss growth, R_dc + k sqrt(f))"),
-    "R_self": ("ohm", "R at the coil's self-resonance"),
-    "delay_s": ("s", "delay (bench: phase slope)"),
-    "tilt_db_per_decade": ("dB/decade", "tilt (bench: generator level)"),
-    "floor_db": ("dB", "reading floor (bench, re peak)"),
-}
-#: quantities only some topologies or benches have
-OPTIONAL = (
-    "R_dynamic",
-    "C_self",
-    "f_self_hz",
-    "R_dc",
-    "k_skin",
-    "R_self",
-    "delay_s",
-    "tilt_db_per_decade",
-    "floor_db",
-)
-COMPONENTS = ("R", "L", "C")
 
 
 def nominal(x) -> float:
@@ -62,7 +29,10 @@ def std_dev(x) -> float:
 
 @dataclass(frozen=True)
 class Quantity:
-    """A reported value: SI value and standard error, or the reason it is not known."""
+    """A reported value: SI value and standard uncertainty, or the reason it is not known.
+
+    The uncertainty is ``stderr`` here, as lmfit names it, and ``u`` in saved JSON.
+    """
 
     name: str
     value: float | None
@@ -86,12 +56,12 @@ class Quantity:
             return "not determined"
         text = format_quantity(self.value, self.unit, self.stderr)
         if self.interval:
-            low, high = (format_quantity(x, self.unit) for x in self.interval)
+            low, high = (format_to(x, self.unit, self.stderr) for x in self.interval)
             text += f" (68% interval {low} to {high})"
         return f"{text}  (doubtful)" if self.doubtful else text
 
     def to_dict(self) -> dict:
-        out = {"value": self.value, "stderr": self.stderr, "unit": self.unit}
+        out = {"value": self.value, "u": self.stderr, "unit": self.unit}
         out["determined"] = self.determined
         if self.reason:
             out["reason"] = self.reason
@@ -148,7 +118,7 @@ class CircuitFit:
 
     def __repr__(self) -> str:
         shown = ", ".join(
-            f"{n}={self.quantities[n].text()}" for n in (*COMPONENTS, "f0_hz", "Q")
+            f"{n}={self.quantities[n].text()}" for n in (*COMPONENTS, "f0", "Q")
             if n in self.quantities
         )  # fmt: skip
         return f"<CircuitFit {self.topology}: {shown}>"
@@ -171,8 +141,8 @@ class CircuitFit:
         out = {n: self.quantities[n].value for n in names}
         out.update({names[i]: u for i, u in zip(keep, base)})
         for name, kv in self.known.items():
-            stderr = kv.get("stderr") or 0.0
-            out.setdefault(name, ufloat(kv["value"], stderr) if stderr else kv["value"])
+            u = kv.get("u") or 0.0
+            out.setdefault(name, ufloat(kv["value"], u) if u else kv["value"])
         return out
 
     def correlations(self) -> dict:
@@ -196,6 +166,7 @@ class CircuitFit:
         q = self.quantities
         return {
             "fitkit_version": __version__,
+            "format": FIT_FORMAT,
             "topology": self.topology,
             "model_choice": self.choice,
             "values": {n: q[n].to_dict() for n in COMPONENTS},
@@ -210,7 +181,7 @@ class CircuitFit:
             "fit": {
                 "points": self.stats.points,
                 "used_points": self.stats.used_points,
-                "redchi": self.stats.redchi,
+                "reduced_chi_square": self.stats.redchi,
                 "rms": self.stats.rms,
                 "rms_unit": self.stats.rms_unit,
                 "aic": self.stats.aic,
@@ -231,8 +202,10 @@ class CircuitFit:
 
     @classmethod
     def from_dict(cls, data: dict, source: str = "<json>") -> CircuitFit:
-        """Rebuild a saved fit (the plot curve is not kept)."""
+        """Rebuild a saved fit (the plot curve is not kept); one saved by an earlier
+        version, with its old names, is read too."""
         try:
+            data = upgrade_fit(data)
             quantities = {}
             for name in QUANTITIES:
                 if name in OPTIONAL and name not in data["derived"]:
@@ -241,12 +214,13 @@ class CircuitFit:
                 quantities[name] = Quantity(
                     name,
                     entry["value"],
-                    entry["stderr"],
+                    entry["u"],
                     entry.get("reason", ""),
                     entry.get("doubtful", ""),
                     tuple(entry["interval_68"]) if entry.get("interval_68") else None,
                 )
-            stats = FitStats(**data["fit"])
+            saved = dict(data["fit"])
+            stats = FitStats(redchi=saved.pop("reduced_chi_square"), **saved)
             return cls(
                 topology=data["topology"],
                 quantities=quantities,

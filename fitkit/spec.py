@@ -15,7 +15,8 @@ A specification is a small TOML file; each value gets a table of its own::
     max = "1.05n"
 
 Values: ``R``, ``L``, ``C``, ``f0``, ``Q``, ``bandwidth`` (of the circuit) and ``Q_loaded``,
-``loaded_bandwidth`` (as the bench saw it).
+``loaded_bandwidth`` (as the bench saw it), named as everywhere else (docs/names.md); an
+old spelling (``[f0_hz]``) is read with a note.
 
 Decision rules (ILAC-G8:09/2019, "Guidelines on decision rules and statements of
 conformity", and ISO 14253-1:2017, guard bands; both cited from memory):
@@ -37,25 +38,16 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from fitkit.errors import FitkitError, InputError
-from fitkit.result import QUANTITIES
-from fitkit.tomlfile import read_toml, refuse_unknown_keys
-from fitkit.units import format_quantity, parse_quantity
+from fitkit.names import OLD_NAMES, QUANTITIES, current_name
+from fitkit.tomlfile import read_toml, refuse_unknown_keys, table_line
+from fitkit.units import format_quantity, format_to, parse_quantity
 
-_QUANTITY_OF = {
-    "R": "R",
-    "L": "L",
-    "C": "C",
-    "f0": "f0_hz",
-    "Q": "Q",
-    "Q_loaded": "Q_loaded",
-    "bandwidth": "bandwidth_hz",
-    "loaded_bandwidth": "loaded_bandwidth_hz",
-    "R_dynamic": "R_dynamic",  # a tank's
-    "C_self": "C_self",  # a coil's self-capacitance
-    "f_self": "f_self_hz",  # and its self-resonance
-}
+#: the values a specification can check (named as in :data:`fitkit.names.QUANTITIES`):
+#: a tank's dynamic resistance, a coil's self-capacitance and self-resonance among them
+CHECKABLE = ("R", "L", "C", "f0", "Q", "Q_loaded", "bandwidth", "loaded_bandwidth",
+             "R_dynamic", "C_self", "f_self")  # fmt: skip
 #: spec name -> (CircuitFit quantity name, unit)
-SPEC_NAMES = {name: (q, QUANTITIES[q][0]) for name, q in _QUANTITY_OF.items()}
+SPEC_NAMES = {name: (name, QUANTITIES[name][0]) for name in CHECKABLE}
 RULES = ("simple", "guarded")
 PASS, FAIL, UNDECIDED = "pass", "fail", "undecided"
 NOT_DETERMINED = "undecided (not determined)"
@@ -168,7 +160,7 @@ def load_spec(path: str | Path) -> Spec:
             path=p,
         )
     refuse_unknown_keys("[rule]", rule, ("decision", "coverage"), p)
-    limits = tuple(_limit(name, table, p) for name, table in data.items())
+    limits = tuple(_limit(name, table, p) for name, table in _current_names(data, p).items())
     if not limits:
         raise InputError(
             "the specification gives no limits",
@@ -195,6 +187,29 @@ def load_spec(path: str | Path) -> Spec:
             path=p,
         )
     return Spec(limits, decision, float(coverage), str(p))
+
+
+def _current_names(data: dict, path: Path) -> dict:
+    """The tables under today's names; an old name is read with a note naming its line.
+
+    Raises
+    ------
+    InputError
+        When a value is given twice, under its old and its new name.
+    """
+    out = {}
+    for name, table in data.items():
+        if OLD_NAMES.get(name) in SPEC_NAMES:
+            line = table_line(path, name)
+            name = current_name(name, f"{path}" + (f", line {line}" if line else ""))
+        if name in out:
+            raise InputError(
+                f"[{name}] is given twice, under its old and its new name",
+                remedy=f"keep one table [{name}]",
+                path=path,
+            )
+        out[name] = table
+    return out
 
 
 def _limit(name: str, table, path: Path) -> Limit:
@@ -299,7 +314,7 @@ def _apart(value: float, edge: float, unit: str, stderr: float | None) -> tuple:
     if not steps:
         return format_quantity(value, unit), format_quantity(edge, unit)
     step = min(steps) * (1 + 1e-9)  # a difference of exactly 0.1 must not read as 0.0999
-    return tuple(format_quantity(x, unit, step).split(" +/- ")[0] for x in (value, edge))
+    return tuple(format_to(x, unit, step) for x in (value, edge))
 
 
 def judge(values: dict, spec: Spec) -> UnitVerdicts:

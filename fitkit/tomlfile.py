@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import difflib
+import re
 import sys
 from pathlib import Path
 
@@ -70,3 +71,13 @@ def refuse_unknown_keys(where: str, table: dict, allowed, path: str | Path) -> N
             remedy=f"{hint}known keys: {', '.join(allowed)}",
             path=path,
         )
+
+
+def table_line(path: str | Path, name: str) -> int | None:
+    """The line (from 1) of the header ``[name]`` in a TOML file; None when not found."""
+    header = re.compile(rf"""\s*\[\s*(?:{re.escape(name)}|"{re.escape(name)}")\s*\]""")
+    try:
+        lines = Path(path).read_text(encoding="utf-8").splitlines()
+    except (OSError, UnicodeDecodeError):
+        return None
+    return next((i for i, line in enumerate(lines, 1) if header.match(line)), None)

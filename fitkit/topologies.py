@@ -63,12 +63,12 @@ class Topology:
         return {"loss": 1.0, "L": 1j * w, "C": 1j / (w * comps["C"] ** 2)}
 
     def derived(self, setup, f0, q, comps: dict) -> dict:
-        out = {"f0_hz": f0, "Q_loaded": q, "loaded_bandwidth_hz": f0 / q}
+        out = {"f0": f0, "Q_loaded": q, "loaded_bandwidth": f0 / q}
         r = comps["R"]
         # a sweep with no fixture values cannot split the loop's loss from the circuit's
         if nominal(r) > 0 and not setup.shape_only:
             out["Q"] = TWO_PI * f0 * comps["L"] / r
-            out["bandwidth_hz"] = r / (TWO_PI * comps["L"])
+            out["bandwidth"] = r / (TWO_PI * comps["L"])
         return out
 
 
@@ -105,11 +105,11 @@ class Tank(Topology):
         # the response's pole sits at Q * Rext / (Rext + R_D) (derived)
         q_loaded = q * ext / (ext + r_dynamic) if ext > 0 else q
         return {
-            "f0_hz": f0,
+            "f0": f0,
             "Q": q,
             "Q_loaded": q_loaded,
-            "bandwidth_hz": f0 / q,
-            "loaded_bandwidth_hz": f0 / q_loaded,
+            "bandwidth": f0 / q,
+            "loaded_bandwidth": f0 / q_loaded,
             "R_dynamic": r_dynamic,
         }
 
@@ -118,11 +118,11 @@ class Coil(Topology):
     name = "coil"
     family = "coil"
     label = "coil with self-capacitance, in series with C"
-    extras = ("f_self_hz",)
+    extras = ("f_self",)
 
     def components(self, setup, f0, q, scale, extras: dict) -> dict:
         comps = super().components(setup, f0, q, scale, extras)
-        comps["C_self"] = 1.0 / ((TWO_PI * extras["f_self_hz"]) ** 2 * comps["L"])
+        comps["C_self"] = 1.0 / ((TWO_PI * extras["f_self"]) ** 2 * comps["L"])
         return comps
 
     def impedance(self, freq_hz, comps: dict, loss_factor) -> np.ndarray:
@@ -143,7 +143,7 @@ class Coil(Topology):
 
     def derived(self, setup, f0, q, comps: dict) -> dict:
         out = super().derived(setup, f0, q, comps)
-        out["f_self_hz"] = 1.0 / (TWO_PI * (comps["L"] * comps["C_self"]) ** 0.5)
+        out["f_self"] = 1.0 / (TWO_PI * (comps["L"] * comps["C_self"]) ** 0.5)
         return out
 
 
@@ -180,8 +180,8 @@ class SqrtLoss(Topology):
 
     def derived(self, setup, f0, q, comps: dict) -> dict:
         out = self.base.derived(setup, f0, q, comps)
-        if "f_self_hz" in out:
-            out["R_self"] = comps["R_dc"] + comps["k_skin"] * out["f_self_hz"] ** 0.5
+        if "f_self" in out:
+            out["R_self"] = comps["R_dc"] + comps["k_skin"] * out["f_self"] ** 0.5
         return out
 
 

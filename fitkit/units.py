@@ -139,6 +139,18 @@ def format_quantity(value: float, unit: str = "", stderr: float | None = None) -
     return f"{v:.{decimals}f}{suffix} +/- {e:.{decimals}f}{suffix}"
 
 
+def format_to(value: float, unit: str, u: float | None) -> str:
+    """The value alone, to the last digit its uncertainty ``u`` calls for (as
+    :func:`format_quantity` prints it with ``u``); four significant figures without one.
+
+    Examples
+    --------
+    >>> format_to(336.4718e3, "Hz", 0.21e3), format_to(336.4718e3, "Hz", None)
+    ('336.47 kHz', '336.5 kHz')
+    """
+    return format_quantity(value, unit, u).split(" +/- ")[0]
+
+
 def engineering_scale(value: float) -> tuple[float, str]:
     """The power of 1000 and its SI prefix that :func:`format_quantity` would use.
 

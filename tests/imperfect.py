@@ -169,11 +169,11 @@ def series_truth(r_ohm, l_h, c_f, external_ohm) -> dict:
         "R": r_ohm,
         "L": l_h,
         "C": c_f,
-        "f0_hz": f0,
+        "f0": f0,
         "Q": q,
         "Q_loaded": q_loaded,
-        "bandwidth_hz": f0 / q,
-        "loaded_bandwidth_hz": f0 / q_loaded,
+        "bandwidth": f0 / q,
+        "loaded_bandwidth": f0 / q_loaded,
     }
 
 
@@ -182,7 +182,7 @@ def tank_truth(r_ohm, l_h, c_f, external_ohm) -> dict:
     out = series_truth(r_ohm, l_h, c_f, 0.0)
     r_dynamic = l_h / (r_ohm * c_f)
     q_loaded = out["Q"] * external_ohm / (external_ohm + r_dynamic) if external_ohm else out["Q"]
-    out.update(R_dynamic=r_dynamic, Q_loaded=q_loaded, loaded_bandwidth_hz=out["f0_hz"] / q_loaded)
+    out.update(R_dynamic=r_dynamic, Q_loaded=q_loaded, loaded_bandwidth=out["f0"] / q_loaded)
     return out
 
 
@@ -233,7 +233,7 @@ def _series_on_divider(r, l_h, f0_hz, sense, half_span_bw=4.0) -> tuple:
     ``(truth, freq, clean ratio, setup)``."""
     c_f = capacitor_for(f0_hz, l_h)
     truth = series_truth(r, l_h, c_f, sense)
-    f = span(truth["f0_hz"], truth["loaded_bandwidth_hz"], half_span_bw)
+    f = span(truth["f0"], truth["loaded_bandwidth"], half_span_bw)
     clean = divider_ratio(series_impedance(f, r, l_h, c_f), sense)
     return truth, f, clean, Setup("divider", "ratio", sense_ohm=sense)
 
@@ -272,7 +272,7 @@ def _coil_self_capacitance(rng) -> dict:
     clean = tank_impedance(f, skin_loss(f, COIL_R_DC, k), COIL_L_H, cp)
     truth = tank_truth(float(skin_loss(f_self, COIL_R_DC, k)), COIL_L_H, cp, 0.0)
     # the same network read as a coil with self-capacitance (names of the coil topology)
-    truth.update(C_self=cp, f_self_hz=f_self)
+    truth.update(C_self=cp, f_self=f_self)
     effect = (
         "coil self-capacitance, loss r_dc + k sqrt(f), log grid over three decades, "
         "resonance between two points"
@@ -295,7 +295,7 @@ def _impedance_relative_noise(rng) -> dict:
     r, l_h = 1.0, 1.5e-6
     c_f = capacitor_for(10.7e6, l_h)
     truth = tank_truth(r, l_h, c_f, 0.0)
-    f = span(truth["f0_hz"], truth["bandwidth_hz"], 4.0)
+    f = span(truth["f0"], truth["bandwidth"], 4.0)
     clean = tank_impedance(f, r, l_h, c_f)
     effect = "impedance analyser, noise 0.5 % of |Z| and 0.3 deg"
     noisy = relative(clean, 0.005, 0.3, rng)
@@ -305,7 +305,7 @@ def _impedance_relative_noise(rng) -> dict:
 def _generator_tilt(rng) -> dict:
     r, l_h, c_f, sense, source, emf = 15.0, 100e-3, 47e-9, 100.0, 50.0, 2.0
     truth = series_truth(r, l_h, c_f, sense + source)
-    f = span(truth["f0_hz"], truth["loaded_bandwidth_hz"], 4.0)
+    f = span(truth["f0"], truth["loaded_bandwidth"], 4.0)
     clean = emf * divider_ratio(series_impedance(f, r, l_h, c_f), sense, source)
     # the generator's output slopes linearly in log f from -0.3 dB to +0.3 dB
     position = np.log(f / f[0]) / math.log(f[-1] / f[0])
@@ -331,7 +331,7 @@ def _channel_skew(rng) -> dict:
     r, l_h, feed = SKEW["r"], SKEW["L"], SKEW["feed"]
     c_f = capacitor_for(SKEW["f0"], l_h)
     truth = tank_truth(r, l_h, c_f, feed)
-    f = span(truth["f0_hz"], truth["loaded_bandwidth_hz"], 4.0)
+    f = span(truth["f0"], truth["loaded_bandwidth"], 4.0)
     clean = across_ratio(tank_impedance(f, r, l_h, c_f), feed) * delay(f, skew_seconds())
     effect = "inter-channel time skew of 3 % of a period at f0 (complex ratio)"
     setup = Setup("across", "ratio", feed_ohm=feed)
@@ -346,7 +346,7 @@ def _s11_reference_plane(rng) -> dict:
     r, l_h = PLANE["r"], PLANE["L"]
     c_f = capacitor_for(PLANE["f0"], l_h)
     truth = series_truth(r, l_h, c_f, 50.0)
-    f = span(truth["f0_hz"], truth["loaded_bandwidth_hz"], 4.0)
+    f = span(truth["f0"], truth["loaded_bandwidth"], 4.0)
     line = delay(f, 2.0 * PLANE["length_m"] / CABLE_VELOCITY)
     clean = reflection(series_impedance(f, r, l_h, c_f)) * line
     effect = "S11 with the calibration plane 4 cm of cable (v = 0.66 c) from the part"
@@ -357,7 +357,7 @@ def _s11_reference_plane(rng) -> dict:
 def _range_switch_step(rng) -> dict:
     truth, f, clean, setup = _series_on_divider(6.0, 150e-6, 1.2e6, 33.0)
     # the instrument changes range 2 loaded bandwidths above resonance, reading 3 % high
-    above = f > truth["f0_hz"] + 2.0 * truth["loaded_bandwidth_hz"]
+    above = f > truth["f0"] + 2.0 * truth["loaded_bandwidth"]
     stepped = clean * np.where(above, 1.03, 1.0)
     effect = "range switch: magnitude x1.03 above f0 + 2 loaded bandwidths (complex ratio)"
     return _spec(effect, "MW", setup, truth, f, stepped, additive(stepped, 1e-3, rng))
@@ -383,7 +383,7 @@ def _glitch_and_lone_peak(rng) -> dict:
     c_f = capacitor_for(5e3, l_h)
     truth = series_truth(r, l_h, c_f, sense)
     # 160 Hz steps, one of them on f0: the only point inside the 127 Hz half-power band
-    f = truth["f0_hz"] + 160.0 * np.arange(-15, 16)
+    f = truth["f0"] + 160.0 * np.arange(-15, 16)
     clean = divider_ratio(series_impedance(f, r, l_h, c_f), sense)
     noisy = additive(clean, 1e-3, rng)
     glitch = 24  # 1.44 kHz above f0, far out in the tail
@@ -400,7 +400,7 @@ def _sparse_peak(rng) -> dict:
     r, l_h, feed = 9.0, 200e-6, 47e3
     c_f = capacitor_for(1.4e6, l_h)
     truth = tank_truth(r, l_h, c_f, feed)
-    f0, bw = truth["f0_hz"], truth["loaded_bandwidth_hz"]
+    f0, bw = truth["f0"], truth["loaded_bandwidth"]
     step = 0.45 * bw  # two or three points inside the half-power band
     f = f0 - 4.0 * bw + 0.3 * step + step * np.arange(18)
     clean = across_ratio(tank_impedance(f, r, l_h, c_f), feed)
@@ -414,7 +414,7 @@ def _weak_peak(rng) -> dict:
     r, l_h = 6.0, 1e-6
     c_f = capacitor_for(104e6, l_h)
     truth = series_truth(r, l_h, c_f, 100.0)
-    f = span(truth["f0_hz"], truth["loaded_bandwidth_hz"], 3.0)
+    f = span(truth["f0"], truth["loaded_bandwidth"], 3.0)
     clean = series_through(series_impedance(f, r, l_h, c_f))
     noisy = additive(clean, 10 ** (-10.0 / 20.0), rng)
     setup = Setup("series-through", "s21")
@@ -430,8 +430,8 @@ def _slow_drift(rng) -> dict:
     # frequency axis: it reads exactly as a static circuit of another Q, and no fit of one
     # sweep can see it; docs/method.md says to sweep both ways then.)
     t = np.linspace(0.0, 1.0, f.size)
-    drift = 0.3 * truth["loaded_bandwidth_hz"] * np.exp(-t / 0.2)
-    c_now = capacitor_for(truth["f0_hz"] + drift, l_h)
+    drift = 0.3 * truth["loaded_bandwidth"] * np.exp(-t / 0.2)
+    c_now = capacitor_for(truth["f0"] + drift, l_h)
     clean = divider_ratio(series_impedance(f, r, l_h, c_now), sense)
     effect = "f0 settles by 0.3 loaded bandwidths early in the sweep (complex ratio)"
     return _spec(effect, "audio", setup, truth, f, clean, additive(clean, 1e-3, rng))
@@ -441,7 +441,7 @@ def _relative_scale(rng) -> dict:
     full, f, clean, _ = _series_on_divider(2.5, 2.2e-6, 10.7e6, 22.0)
     # uncalibrated channels: the ratio carries an unknown gain; the sense resistor unknown
     clean = 0.37 * clean
-    shape = ("f0_hz", "Q_loaded", "loaded_bandwidth_hz")
+    shape = ("f0", "Q_loaded", "loaded_bandwidth")
     truth = {n: (full[n] if n in shape else None) for n in full}
     effect = "relative scale, no fixture values: only the shape counts"
     setup = Setup("divider", "ratio", relative=True)
@@ -465,7 +465,7 @@ def _flat_resistor(rng) -> dict:
     f = np.geomspace(1e3, 100e3, 101)
     clean = np.full(f.size, 1000.0 + 0j)
     effect = "no resonance at all: a 1 kohm resistor on an impedance analyser"
-    doubt = ("L", "C", "f0_hz", "Q", "Q_loaded", "bandwidth_hz", "loaded_bandwidth_hz")
+    doubt = ("L", "C", "f0", "Q", "Q_loaded", "bandwidth", "loaded_bandwidth")
     setup = Setup("impedance", "impedance")
     noisy = relative(clean, 0.005, 0.3, rng)
     outcome = dict(expect="refusal-or-doubt", must_doubt=doubt)

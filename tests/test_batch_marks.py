@@ -120,7 +120,7 @@ def test_readable_results_use_engineering_notation(folder, tmp_path):
     # the same value: micro is 1e-6 (SI prefixes, BIPM SI Brochure)
     assert float(match[1]) * 1e-6 == pytest.approx(float(si["kit-01.csv"]["L"]), rel=1e-4)
     assert float(match[2]) * 1e-6 == pytest.approx(float(si["kit-01.csv"]["L_u"]), rel=0.05)
-    assert re.fullmatch(r"\d+\.\d+ kHz \+/- \d+\.\d+ kHz", people["kit-01.csv"]["f0_hz"])
+    assert re.fullmatch(r"\d+\.\d+ kHz \+/- \d+\.\d+ kHz", people["kit-01.csv"]["f0"])
     assert people["kit-01.csv"]["file"] == si["kit-01.csv"]["file"]
 
 

@@ -39,10 +39,10 @@ def test_json_has_the_promised_shape(tmp_path):
     assert out.exit_code == 0
     data = json.loads(out.output)
     for name in ("R", "L", "C"):
-        assert set(data["values"][name]) >= {"value", "stderr", "unit"}
-    for name in ("f0_hz", "Q", "bandwidth_hz"):
-        assert set(data["derived"][name]) >= {"value", "stderr"}
-    assert {"points", "redchi", "rms", "converged", "warnings"} <= set(data["fit"])
+        assert set(data["values"][name]) >= {"value", "u", "unit"}
+    for name in ("f0", "Q", "bandwidth"):
+        assert set(data["derived"][name]) >= {"value", "u"}
+    assert {"points", "reduced_chi_square", "rms", "converged", "warnings"} <= set(data["fit"])
     assert data["setup"]["sense_ohm"] == 47.0
     assert -1 <= data["correlations"]["matrix"][1][2] <= 1
     saved = tmp_path / "fit.json"
@@ -50,10 +50,10 @@ def test_json_has_the_promised_shape(tmp_path):
     again = load_fit(saved)
     assert again["L"].value == data["values"]["L"]["value"]
     uvals = again.correlated()
-    assert uvals["L"].std_dev == pytest.approx(data["values"]["L"]["stderr"], rel=1e-6)
+    assert uvals["L"].std_dev == pytest.approx(data["values"]["L"]["u"], rel=1e-6)
     # f0 rebuilt from the correlated L and C keeps its small error (strong correlation)
     f0 = 1 / (2 * np.pi * (uvals["L"] * uvals["C"]) ** 0.5)
-    assert f0.std_dev == pytest.approx(data["derived"]["f0_hz"]["stderr"], rel=1e-3)
+    assert f0.std_dev == pytest.approx(data["derived"]["f0"]["u"], rel=1e-3)
 
 
 def test_plot_is_written_and_never_silently_replaced(tmp_path):

@@ -26,7 +26,7 @@ def series_values(r, l_h, c_f, rel_u=1e-4):
     f0 = 1 / (2 * math.pi * math.sqrt(l_h * c_f))
     q = math.sqrt(l_h / c_f) / r
     return {k: (v, abs(v) * rel_u) for k, v in
-            {"R": r, "L": l_h, "C": c_f, "f0_hz": f0, "Q": q}.items()}  # fmt: skip
+            {"R": r, "L": l_h, "C": c_f, "f0": f0, "Q": q}.items()}  # fmt: skip
 
 
 def test_combined_uncertainty_of_independent_fits():
@@ -55,8 +55,8 @@ def test_grown_loss_leaves_f0_unchanged():
 
 
 def test_relative_sweeps_say_what_cannot_be_concluded():
-    ref = {"f0_hz": (500e3, 50.0), "Q_loaded": (3.2, 0.004)}
-    now = {"f0_hz": (485e3, 50.0), "Q_loaded": (3.2, 0.004)}
+    ref = {"f0": (500e3, 50.0), "Q_loaded": (3.2, 0.004)}
+    now = {"f0": (485e3, 50.0), "Q_loaded": (3.2, 0.004)}
     text = " ".join(reading(compare(now, ref)))
     # 1/(1 - 0.03)^2 - 1 = +6.28 %
     assert "f0 down 3.0%, loaded Q unchanged" in text

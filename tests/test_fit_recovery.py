@@ -21,9 +21,9 @@ EXPECTED = {
     "R": TRUTH["R"],
     "L": TRUTH["L"],
     "C": TRUTH["C"],
-    "f0_hz": F0,
+    "f0": F0,
     "Q": Q,
-    "bandwidth_hz": F0 / Q,
+    "bandwidth": F0 / Q,
 }
 
 
@@ -65,7 +65,7 @@ def test_relative_impedance_noise_in_db_and_degrees():
 def test_one_sigma_coverage_is_honest():
     """Over many sweeps the 1-sigma interval holds the truth about 68% of the time."""
     setup = SETUPS["divider-terminal"]
-    hits = {"L": 0, "Q": 0, "f0_hz": 0}
+    hits = {"L": 0, "Q": 0, "f0": 0}
     runs = 60
     for seed in range(runs):
         fit = fit_sweep(make_sweep(setup, seed=100 + seed, noise=3e-3), setup)
@@ -80,11 +80,11 @@ def test_relative_sweep_fixes_only_f0_and_loaded_q():
     setup = Setup("divider", "volts", sense_ohm=47.0)  # no generator amplitude: relative
     sweep = make_sweep(SETUPS["volts"], seed=11)
     fit = fit_sweep(sweep, setup)
-    for name in ("R", "L", "C", "Q", "bandwidth_hz"):
+    for name in ("R", "L", "C", "Q", "bandwidth"):
         assert not fit[name].determined
         assert fit.to_dict()["values" if name in "RLC" else "derived"][name]["value"] is None
-    _within(fit, "f0_hz", F0)
-    assert {u["name"] for u in fit.undetermined} == {"R", "L", "C", "Q", "bandwidth_hz"}
+    _within(fit, "f0", F0)
+    assert {u["name"] for u in fit.undetermined} == {"R", "L", "C", "Q", "bandwidth"}
     assert "known" in fit.undetermined[0]["remedy"]
 
 
@@ -160,8 +160,8 @@ def test_a_fit_ending_at_its_search_limit_says_so():
     setup = SETUPS["series-through"]
     sweep = make_sweep(setup, seed=2)
     fit = fit_sweep(sweep, setup, topology="coil")
-    assert fit["f_self_hz"].value > 100 * sweep.freq_hz[-1]
-    assert any("limit of its search range (ln_f_self_hz)" in w for w in fit.stats.warnings)
+    assert fit["f_self"].value > 100 * sweep.freq_hz[-1]
+    assert any("limit of its search range (ln_f_self)" in w for w in fit.stats.warnings)
 
 
 def test_scatter_that_grows_with_the_reading_is_pointed_out():

@@ -198,7 +198,7 @@ def test_a_user_profile_with_scope_measurements_reads_the_ratio(tmp_path):
             bench, sim, request, tmp_path / "s.csv", settings=scope, profile=load_profile(path)
         )
     assert all(math.isnan(p.sigma) for p in taken.points)
-    f0 = taken.fit["f0_hz"]
+    f0 = taken.fit["f0"]
     truth = 1 / (2 * math.pi * math.sqrt(sim.l_h * sim.c_f))
     assert abs(f0.value - truth) < 4 * f0.stderr
 

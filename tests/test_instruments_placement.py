@@ -14,7 +14,7 @@ from fitkit.plan import cramer_rao, resonance
 from fitkit.setups import Setup
 
 
-@pytest.mark.parametrize("target", ["Q", "L", "C", "R", "f0_hz"])
+@pytest.mark.parametrize("target", ["Q", "L", "C", "R", "f0"])
 def test_numerical_bound_matches_the_analytic_bound_of_plan(target):
     # plan.cramer_rao differentiates the series model analytically (Kay 1993, ch. 3);
     # the placement's central differences must give the same bound

@@ -62,7 +62,7 @@ def test_model_agrees_with_fit_sweep_within_a_small_fraction_of_a_standard_error
         theirs = result.params[p]
         assert abs(theirs.value - ours.value) < 0.05 * ours.stderr, p
         assert theirs.stderr == pytest.approx(ours.stderr, rel=0.05), p
-    assert result.params["f0"].value == pytest.approx(fit["f0_hz"].value, rel=1e-7)
+    assert result.params["f0"].value == pytest.approx(fit["f0"].value, rel=1e-7)
     assert result.params["Q"].value == pytest.approx(fit["Q"].value, abs=0.05 * fit["Q"].stderr)
 
 

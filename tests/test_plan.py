@@ -67,8 +67,8 @@ def test_bound_matches_a_finite_difference_fisher_matrix_through_a_probe():
     b = cramer_rao(setup, f, R, L, C, Noise("additive", sigma))
     for i, name in enumerate("RLC"):
         assert b[name].stderr == pytest.approx(np.sqrt(cov[i, i]), rel=1e-4), name
-    grad_f0 = np.array([0.0, -0.5 / L, -0.5 / C]) * b["f0_hz"].value
-    assert b["f0_hz"].stderr == pytest.approx(np.sqrt(grad_f0 @ cov @ grad_f0), rel=1e-4)
+    grad_f0 = np.array([0.0, -0.5 / L, -0.5 / C]) * b["f0"].value
+    assert b["f0"].stderr == pytest.approx(np.sqrt(grad_f0 @ cov @ grad_f0), rel=1e-4)
 
 
 def _lorentzian_q_factor(complex_data: bool, n: int = 201) -> float:
@@ -113,10 +113,10 @@ def test_relative_sweep_leaves_the_components_undetermined():
     f0, ql = resonance(setup, R, L, C)
     f = SweepShape(3.0, 201).frequencies(f0, ql)
     b = cramer_rao(setup, f, R, L, C, Noise("additive", 1e-3))
-    for name in ("R", "L", "C", "Q", "bandwidth_hz"):
+    for name in ("R", "L", "C", "Q", "bandwidth"):
         assert not b[name].determined, name
         assert "uncalibrated" in b[name].reason
-    assert b.relative("f0_hz") < 1e-4 and b.relative("Q_loaded") < 1e-2
+    assert b.relative("f0") < 1e-4 and b.relative("Q_loaded") < 1e-2
     # one known value (an LCR meter, 1%) pins the scale again
     pinned = cramer_rao(setup, f, R, L, C, Noise("additive", 1e-3), known={"L": (L, 0.01 * L)})
     assert pinned.relative("L") == pytest.approx(0.01, rel=1e-3)
@@ -168,7 +168,7 @@ def test_bound_agrees_with_monte_carlo_scatter_of_fits(r, shape, complex_data, s
     sigma = peak_sigma(DIVIDER, f, snr_db, r=r)
     truth = DIVIDER.response(series_rlc(f, r, L, C), f)
     rng = np.random.default_rng(20240601)
-    names = ("f0_hz", "Q_loaded", "L", "R")
+    names = ("f0", "Q_loaded", "L", "R")
     found, reported = [], []
     for _ in range(runs):
         if complex_data:

@@ -67,9 +67,9 @@ def test_spec_file_layout(tmp_path):
     assert spec.rule == "simple"
     assert limits["L"].low == pytest.approx(209e-6) and limits["L"].high == pytest.approx(231e-6)
     assert limits["C"].low == pytest.approx(950e-12) and limits["C"].high == pytest.approx(1.05e-9)
-    assert (limits["f0"].quantity, limits["f0"].low) == ("f0_hz", pytest.approx(338e3))
+    assert (limits["f0"].quantity, limits["f0"].low) == ("f0", pytest.approx(338e3))
     assert limits["Q"].low == 30 and limits["Q"].high is None
-    assert spec.nominals() == {"L": pytest.approx(220e-6), "f0_hz": pytest.approx(340e3)}
+    assert spec.nominals() == {"L": pytest.approx(220e-6), "f0": pytest.approx(340e3)}
     assert "ILAC-G8:09/2019" in spec.rule_text()
     assert "ISO 14253-1:2017" in spec.with_rule("guarded", 3).rule_text()
 

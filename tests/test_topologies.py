@@ -116,7 +116,7 @@ def test_coil_recovered_through_every_bench(setup_name):
     fit = fit_sweep(_noisy(setup, z, f, seed=31), setup, topology="coil")
     for name, value in COIL.items():
         _within(fit, name, value)
-    _within(fit, "f_self_hz", 1 / (TWO_PI * math.sqrt(COIL["L"] * COIL["C_self"])))
+    _within(fit, "f_self", 1 / (TWO_PI * math.sqrt(COIL["L"] * COIL["C_self"])))
 
 
 def test_loss_growing_as_sqrt_f():

@@ -91,7 +91,7 @@ def judge(case: ImperfectCase, result) -> list:
             ]
         return [_refusal(case.name, result, allowed)]
     if case.expect == "refusal":
-        f0 = result.quantities["f0_hz"]
+        f0 = result.quantities["f0"]
         note = f"fitted ({result.topology}, f0 = {f0.text()}) instead of refusing"
         return [
             Verdict(case.name, WHOLE_FIT, None, f0.value, f0.stderr, math.inf, WRONG, False, note)

@@ -10,7 +10,7 @@ import click
 from fitkit.cli.base import main, reports_errors
 from fitkit.units import format_quantity
 
-_TARGET_NAMES = {"R": "R", "L": "L", "C": "C", "f0": "f0_hz", "Q": "Q", "bandwidth": "bandwidth_hz"}
+_TARGET_NAMES = {"R": "R", "L": "L", "C": "C", "f0": "f0", "Q": "Q", "bandwidth": "bandwidth"}
 
 
 def _target(text: str) -> tuple:
@@ -50,8 +50,8 @@ def _progress(target: str):
 
     def show(points: int, fit) -> None:
         q = fit[target]
-        parts = [f"{points:4d} points", f"f0 {_brief(fit['f0_hz'])}"]
-        if target != "f0_hz":
+        parts = [f"{points:4d} points", f"f0 {_brief(fit['f0'])}"]
+        if target != "f0":
             parts.append(f"{QUANTITIES[target][1].split(' (')[0]} {_brief(q)}")
         parts.append(f"({q.stderr / abs(q.value):.2%})")
         click.echo("  " + "  ".join(parts), err=True)

@@ -5,10 +5,12 @@ from __future__ import annotations
 import functools
 import importlib
 import sys
+import warnings
 
 import click
 
 from fitkit.errors import FitkitError
+from fitkit.names import OldNameWarning
 from fitkit.version import __version__
 
 #: each command's module and its one-line help, so that 'fitkit --help' and '--version'
@@ -54,17 +56,34 @@ def main() -> None:
 
 
 def reports_errors(func):
-    """Turn a fitkit error into a plain message on stderr and exit status 2."""
+    """Turn a fitkit error into a plain message on stderr and exit status 2, and a note
+    about an old name into one line on stderr."""
 
     @functools.wraps(func)
     def wrapper(*args, **kwargs):
         try:
-            return func(*args, **kwargs)
+            with warnings.catch_warnings():
+                warnings.simplefilter("default", OldNameWarning)  # each note once
+                warnings.showwarning = _note_or_warning(warnings.showwarning)
+                return func(*args, **kwargs)
         except FitkitError as exc:
             click.echo(f"Error: {exc.user_text()}", err=True)
             sys.exit(exc.exit_code)
 
     return wrapper
+
+
+def _note_or_warning(show):
+    """A ``warnings.showwarning`` that prints an old-name note as ``note: ...`` and passes
+    any other warning on to ``show``."""
+
+    def note(message, category, *args, **kwargs):
+        if issubclass(category, OldNameWarning):
+            click.echo(f"note: {message}", err=True)
+        else:
+            show(message, category, *args, **kwargs)
+
+    return note
 
 
 def plot_options(func):

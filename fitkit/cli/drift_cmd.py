@@ -22,6 +22,7 @@ from fitkit.drift import (
     signed_percent,
 )
 from fitkit.errors import InputError
+from fitkit.names import current_name
 from fitkit.result import QUANTITIES, load_fit
 from fitkit.spec import SPEC_NAMES, load_spec
 from fitkit.units import format_quantity, parse_quantity
@@ -40,12 +41,13 @@ def _nominals(typed: tuple, spec_file: str | None) -> Side:
         out.update({q: (v, 0.0) for q, v in load_spec(spec_file).nominals().items()})
     for item in typed:
         name, sep, text = item.partition("=")
-        if not sep or name.strip() not in SPEC_NAMES:
+        name = current_name(name.strip(), "--nominal")
+        if not sep or name not in SPEC_NAMES:
             raise InputError(
                 f"--nominal {item!r} is not NAME=VALUE",
                 remedy=f"write e.g. --nominal C=2.2n; NAME one of {', '.join(SPEC_NAMES)}",
             )
-        quantity, unit = SPEC_NAMES[name.strip()]
+        quantity, unit = SPEC_NAMES[name]
         value = parse_quantity(text, unit, what=f"--nominal {name}")
         if not value > 0:
             raise InputError(

@@ -13,8 +13,10 @@ from fitkit.circuits import TWO_PI
 from fitkit.cli.base import main, reports_errors
 from fitkit.cli.fit_cmd import bench_options, overrides_from_options
 from fitkit.errors import SetupError
+from fitkit.names import current_name
 from fitkit.noise import parse_noise
 from fitkit.plan import (
+    BOUNDED,
     READING_OF_BENCH,
     SPACINGS,
     Bounds,
@@ -33,20 +35,8 @@ from fitkit.topologies import TOPOLOGIES
 from fitkit.units import format_quantity, parse_quantity
 from fitkit.version import __version__
 
-#: short names accepted by --target
-TARGET_NAMES = {
-    "R": "R",
-    "L": "L",
-    "C": "C",
-    "f0": "f0_hz",
-    "Q": "Q",
-    "QL": "Q_loaded",
-    "B": "bandwidth_hz",
-    "BL": "loaded_bandwidth_hz",
-    "RD": "R_dynamic",
-    "Cself": "C_self",
-    "fself": "f_self_hz",
-}
+#: the values --target takes, named as everywhere else (docs/names.md)
+TARGETS = (*BOUNDED, "R_dynamic", "C_self", "f_self")
 DEFAULT_SPAN_BW = 3.0
 
 
@@ -103,8 +93,8 @@ DEFAULT_SPAN_BW = 3.0
 @click.option(
     "--target",
     metavar="NAME=PRECISION",
-    help="Find the cheapest sweep that knows NAME (R, L, C, f0, Q, QL, B, BL) to "
-    "PRECISION, e.g. L=0.5%.",
+    help="Find the cheapest sweep that knows NAME (R, L, C, f0, Q, Q_loaded, bandwidth, "
+    "loaded_bandwidth) to PRECISION, e.g. L=0.5%.",
 )
 @reports_errors
 def plan_command(noise, magnitude_only, points, spacing, target, **opts):
@@ -117,6 +107,7 @@ def plan_command(noise, magnitude_only, points, spacing, target, **opts):
     sweep cannot determine at all are named, with the reason. Exit status 2 on bad input.
     """
     complex_data = not magnitude_only
+    wanted = _parse_target(target) if target else None
     file = load_bench_file(opts["setup_file"]) if opts.get("setup_file") else {}
     overrides = overrides_from_options(opts)
     kind, kind_from = _reading_kind(opts.pop("kind"), overrides, file.get("bench"))
@@ -152,8 +143,8 @@ def plan_command(noise, magnitude_only, points, spacing, target, **opts):
     )
     click.echo("")
     click.echo(bounds_table(bounds))
-    if target:
-        name, rel = _parse_target(target)
+    if wanted:
+        name, rel = wanted
         found = plan_sweep(
             setup,
             r_ohm,
@@ -255,15 +246,14 @@ def _circuit(opts: dict) -> tuple:
 
 def _parse_target(text: str) -> tuple:
     m = re.fullmatch(r"\s*(\w+)\s*=\s*([0-9.]+(?:[eE][-+]?\d+)?)\s*(%?)\s*", text)
-    if not m or m.group(1) not in TARGET_NAMES:
+    name = current_name(m.group(1), "--target") if m else None
+    if name not in TARGETS:
         raise SetupError(
             f"cannot read the target {text!r}",
-            remedy="write NAME=PRECISION with NAME one of "
-            + ", ".join(TARGET_NAMES)
-            + ", e.g. L=0.5%",
+            remedy="write NAME=PRECISION with NAME one of " + ", ".join(TARGETS) + ", e.g. L=0.5%",
         )
     rel = float(m.group(2)) / (100.0 if m.group(3) else 1.0)
-    return TARGET_NAMES[m.group(1)], rel
+    return name, rel
 
 
 def _sweep_text(shape: SweepShape, freq_hz: np.ndarray) -> str:

@@ -2,12 +2,12 @@
 
 from __future__ import annotations
 
-import json
 from pathlib import Path
 
 import click
 
 from fitkit.batch import RESULTS_JSON, fit_with
+from fitkit.batch_results import load_results
 from fitkit.cli import checks
 from fitkit.cli.base import main, reports_errors
 from fitkit.cli.batch_cmd import fit_settings
@@ -78,7 +78,7 @@ def _fit_of(path: Path, settings: dict) -> tuple:
 def _batch_page(folder: Path) -> str:
     path = folder / RESULTS_JSON
     try:
-        data = json.loads(path.read_text(encoding="utf-8"))
+        data = load_results(folder)
         return batch_report(data, data["settings"], batch_plots(data["rows"], data["settings"]))
     except FileNotFoundError:
         raise InputError(

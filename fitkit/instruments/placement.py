@@ -47,7 +47,7 @@ class InformationModel:
         circuit, the coil's Q for the tank) and its scale resistance (loop resistance
         for the series circuit, dynamic resistance for the tank).
     target : str
-        The value to pin down, a name the fit reports (``"Q"``, ``"L"``, ``"f0_hz"``...).
+        The value to pin down, a name the fit reports (``"Q"``, ``"L"``, ``"f0"``...).
     """
 
     def __init__(self, topology: str, setup: Setup, f0_hz, q, scale, target: str) -> None:
@@ -60,7 +60,7 @@ class InformationModel:
     @classmethod
     def from_fit(cls, fit: CircuitFit, setup: Setup, target: str) -> InformationModel:
         """The model at a fit's values."""
-        f0 = fit["f0_hz"].value
+        f0 = fit["f0"].value
         if fit.topology == "tank":
             return cls("tank", setup, f0, fit["Q"].value, fit["R_dynamic"].value, target)
         return cls(

@@ -54,7 +54,7 @@ class SweepRequest:
     topology : str
         The model fitted as points come in, ``"series"`` or ``"tank"``.
     target : str
-        The value to pin down, as the fit names it (``"Q"``, ``"L"``, ``"f0_hz"``...).
+        The value to pin down, as the fit names it (``"Q"``, ``"L"``, ``"f0"``...).
     target_rel : float
         Its wanted relative standard uncertainty (0.005 for 0.5%).
     coarse_points : int

@@ -12,7 +12,7 @@ from fitkit.errors import FitkitError
 from fitkit.report.html import plot_png, split_verdict, write_report
 from fitkit.report.pages import data_uri, render
 from fitkit.result import QUANTITIES
-from fitkit.spec import SPEC_NAMES, Spec, load_spec
+from fitkit.spec import Spec, load_spec
 from fitkit.units import format_quantity
 
 #: at most this many plots in a batch report (each unit is refitted to draw it)
@@ -20,8 +20,7 @@ MAX_BATCH_PLOTS = 60
 #: the order of the rows: what needs a person's attention first
 ORDER = {"fail": 0, "undecided": 1, "not fitted": 2}
 #: values shown for every unit, judged or not
-SHOWN = ("L", "C", "R", "f0_hz", "Q", "Q_loaded")
-SHORT = {q: name.replace("_", " ") for name, (q, _) in SPEC_NAMES.items()}
+SHOWN = ("L", "C", "R", "f0", "Q", "Q_loaded")
 
 
 def unit_names(files: list[str]) -> dict:
@@ -196,9 +195,9 @@ def batch_report(summary: dict, settings: dict, plots: dict, spec: Spec | None =
     columns = _columns(spec)
     headers = []
     for q, spec_name in columns:
-        headers.append(SHORT.get(q, q))
+        headers.append(q.replace("_", " "))
         if spec_name:
-            headers.append(f"{SHORT.get(q, q)} verdict")
+            headers.append(f"{q.replace('_', ' ')} verdict")
     units = _unit_rows(summary, names, columns)
     counts = sorted(summary["counts"].items(), key=lambda c: (ORDER.get(c[0], 3), c[0]))
     fits = [

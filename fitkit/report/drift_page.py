@@ -13,8 +13,8 @@ from fitkit.result import QUANTITIES, CircuitFit
 from fitkit.units import format_quantity
 
 #: change fields shown in their own columns; any other field gets a column of its own
-KNOWN_FIELDS = {"reference", "reference_u", "value", "value_u", "change", "change_u",
-                "relative", "z", "significant"}  # fmt: skip
+KNOWN_FIELDS = {"unit", "reference", "reference_u", "value", "value_u", "change", "change_u",
+                "relative", "relative_u", "z", "significant", "doubtful"}  # fmt: skip
 
 
 def plain_text(value, unit: str = "") -> str:
@@ -47,6 +47,7 @@ def change_rows(changes: dict) -> tuple[list[str], list[dict]]:
                 "relative": format_quantity(c["relative"] * 100, "", rel_u or None) + " %",
                 "z": "" if z is None else f"{z:+.1f}",
                 "changed": bool(c.get("significant")),
+                "doubtful": c.get("doubtful") or "",
                 "extra": [plain_text(c.get(k), unit) for k in extra],
             }
         )

@@ -14,7 +14,7 @@ from fitkit.report.axes import frequency_axis, literal, pyplot, save_figure
 from fitkit.result import CircuitFit
 
 #: the values written in the box beside a fit plot
-BOX = (("R", "R"), ("L", "L"), ("C", "C"), ("f0_hz", "f0"), ("Q", "Q"), ("Q_loaded", "Q loaded"))
+BOX = (("R", "R"), ("L", "L"), ("C", "C"), ("f0", "f0"), ("Q", "Q"), ("Q_loaded", "Q loaded"))
 
 
 def magnitude_view(fit: CircuitFit) -> tuple[str, bool, str]:
@@ -96,7 +96,7 @@ def fit_figure(fit: CircuitFit):
         twin.set_ylabel("phase\nresidual (deg)", color="C2")
         twins.append(twin)
     _aligned_zero(*twins)
-    f0 = fit.quantities["f0_hz"]
+    f0 = fit.quantities["f0"]
     edges = half_power_band(f0.value, fit.quantities["Q_loaded"].value)
     for ax in axes:
         ax.axvspan(*edges, color="C1", alpha=0.12, lw=0)
@@ -147,7 +147,7 @@ def drift_figure(unit: CircuitFit, reference: CircuitFit):
         mag_d, mag_m = np.abs(data), np.abs(model)
         if in_db:
             mag_d, mag_m = 20 * np.log10(mag_d), 20 * np.log10(mag_m)
-        f0 = fit.quantities["f0_hz"]
+        f0 = fit.quantities["f0"]
         axes[0].plot(freq, mag_d, style["marker"], ms=3, color=style["color"], alpha=0.6,
                      label=f"{name}: measured")  # fmt: skip
         axes[0].plot(freq, mag_m, ls=style["ls"], color=style["color"], lw=1.5,

@@ -9,13 +9,16 @@ from dataclasses import fields
 from uncertainties import ufloat
 
 from fitkit.errors import InputError
+from fitkit.names import upgrade_entries
 
 KINDS = ("fit", "prediction", "drift")
 _SAVE_HINT = "save one with 'fitkit fit SWEEP --json > fit.json' (or predict/drift --json)"
 
 
 def read_saved(path) -> tuple[str, dict]:
-    """(kind, data) of a saved result; kind is one of :data:`KINDS`.
+    """(kind, data) of a saved result; kind is one of :data:`KINDS`. A prediction or
+    drift saved by an earlier version comes back in today's names (a fit is translated
+    by :meth:`fitkit.result.CircuitFit.from_dict`).
 
     Raises
     ------
@@ -33,17 +36,17 @@ def read_saved(path) -> tuple[str, dict]:
         if "topology" in data and "values" in data:
             return "fit", data
         if "carriers" in data and "chain" in data:
-            return "prediction", data
+            return "prediction", upgrade_entries(data)
         if "changes" in data:
-            return "drift", data
+            return "drift", upgrade_entries(data)
     raise InputError(
         "not a fit, prediction or drift result saved by fitkit", remedy=_SAVE_HINT, path=path
     )
 
 
 def _uvalue(entry: dict):
-    err = entry.get("stderr") or 0.0
-    return ufloat(entry["value"], err) if err else entry["value"]
+    u = entry.get("u") or 0.0
+    return ufloat(entry["value"], u) if u else entry["value"]
 
 
 def prediction_from_dict(data: dict, source: str = "<json>"):
@@ -85,7 +88,7 @@ def prediction_from_dict(data: dict, source: str = "<json>"):
             chain=chain,
             wanted_hz=data["wanted_hz"],
             tune_hz=data["tune_hz"],
-            q_loaded=_uvalue(data["q_loaded"]),
+            q_loaded=_uvalue(data["Q_loaded"]),
             carriers=carriers,
             band=band,
             limit=limit,

@@ -88,7 +88,7 @@ def drift_table(data: dict) -> str:
     from fitkit.report.drift_page import change_rows, plain_text
 
     extra, rows = change_rows(data.get("changes", {}))
-    unit, reference = data.get("unit"), data.get("reference")
+    unit, reference = (_source(data.get(side)) for side in ("unit", "reference"))
     lines = [f"{unit} against {reference}"] if unit and reference else ["drift"]
     width = max((len(r["label"]) for r in rows), default=0)
     for r in rows:
@@ -97,6 +97,7 @@ def drift_table(data: dict) -> str:
         lines.append(
             f"  {r['label']:<{width}}  {r['reference']} -> {r['now']}  change {r['change']} "
             f"({r['relative']})  z = {r['z']}  {flag}{more}"
+            + (f"  doubtful: {r['doubtful']}" if r["doubtful"] else "")
         )
     lines.append("  (a change counts when |z| > 2; u = sqrt(u^2 + u_ref^2))")
     lines += [f"  reading: {line}" for line in data.get("reading", [])]
@@ -104,3 +105,8 @@ def drift_table(data: dict) -> str:
         if key not in ("changes", "reading", "unit", "reference"):
             lines.append(f"  {key.replace('_', ' ')}: {plain_text(value)}")
     return "\n".join(lines)
+
+
+def _source(side) -> str:
+    """Where one side of a saved drift diagnosis came from (its ``source``)."""
+    return str(side.get("source", "")) if isinstance(side, dict) else str(side or "")
