@@ -48,7 +48,9 @@ def plain_solve(sweep, setup):
 
 
 @pytest.mark.parametrize("points", [201, 1001])
-@pytest.mark.parametrize("setup_name", ["divider-terminal", "reflection", "volts", "series-through"])
+@pytest.mark.parametrize(
+    "setup_name", ["divider-terminal", "reflection", "volts", "series-through"]
+)
 def test_same_minimum_and_errors_as_a_plain_solve(setup_name, points):
     setup = SETUPS[setup_name]
     sweep = make_sweep(setup, seed=11, points=points)
