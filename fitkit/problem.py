@@ -58,6 +58,9 @@ class FitProblem:
         self.forced = True  # the user named the model (not chosen among candidates)
         self.f = sweep.freq_hz
         self.data = sweep.values
+        # each point's own sigma over their median (None: all alike); every pass, with
+        # unit or stated noise, weights by it
+        self.spread = None if sweep.sigma is None else sweep.sigma / np.median(sweep.sigma)
         self.coefficients = setup.coefficients(self.f)
         # generous bounds keep a wandering candidate model finite; a fit that ends on
         # one is reported (values at a bound are not trusted)
@@ -125,11 +128,18 @@ class FitProblem:
             return lr.real, lr.imag
         return np.log(np.abs(ratio)), None
 
+    def scaled_residual(self, values: dict, idx, domain: str) -> tuple:
+        """The raw residual over each point's spread (as it is when all are alike)."""
+        a, b = self.raw_residual(values, idx, domain)
+        if self.spread is None:
+            return a, b
+        return a / self.spread[idx], None if b is None else b / self.spread[idx]
+
     def residual(self, params, idx, noise: Noise) -> np.ndarray:
         return self.residual_values(params.valuesdict(), idx, noise)
 
     def residual_values(self, values: dict, idx, noise: Noise) -> np.ndarray:
-        a, b = self.raw_residual(values, idx, noise.domain)
+        a, b = self.scaled_residual(values, idx, noise.domain)
         parts = [a / noise.sigma]
         if b is not None:
             phase_sigma = noise.sigma if noise.domain == "additive" else noise.sigma_phase_rad
@@ -262,7 +272,8 @@ class FitProblem:
         from memory) counts 0.2 to 0.5 as risky and above 0.5 as a point that fixes its
         own fitted value."""
         idx, domain = first.used, first.domain
-        a, b = self.raw_residual(first.params.valuesdict(), idx, domain)
+        # judged against each point's own scatter
+        a, b = self.scaled_residual(first.params.valuesdict(), idx, domain)
         flagged = np.zeros(idx.size, dtype=bool)
         size = np.zeros(idx.size)
         for comp in [a] if b is None else [a, b]:
@@ -299,9 +310,10 @@ class FitProblem:
         return hat.reshape(-1, idx.size).sum(axis=0)
 
     def estimate_noise(self, first: FirstPass) -> Noise:
-        """Noise from the residuals of the first pass, magnitude and phase apart."""
+        """Noise from the residuals of the first pass, magnitude and phase apart (the
+        level by which each point's spread is multiplied, when the sweep has one)."""
         domain = first.domain
-        a, b = self.raw_residual(first.params.valuesdict(), first.used, domain)
+        a, b = self.scaled_residual(first.params.valuesdict(), first.used, domain)
         ncomp = 1 if b is None else 2
         nvary = len(varied(first.params))
         dof_share = max(1.0 - nvary / (ncomp * first.used.size), 0.5)
