@@ -237,12 +237,16 @@ def _sweep(request, setup, reader, result, metadata, progress) -> None:
 
 
 def _fit(points, setup: Setup, topology: str, path) -> CircuitFit:
+    """The fit of the points so far, each weighted by its own sigma when all have one
+    (as the fit of the written file weights them)."""
     rows = sorted(points, key=lambda pt: pt.freq_hz)
+    sigma = np.array([pt.sigma for pt in rows])
     sweep = Sweep(
         np.array([pt.freq_hz for pt in rows]),
         np.array([pt.ratio for pt in rows]),
         "ratio",
         source=str(path),
+        sigma=sigma if np.all(np.isfinite(sigma)) else None,
     )
     try:
         return fit_sweep(sweep, setup, topology=topology)
