@@ -223,7 +223,10 @@ def acquire_command(sweep_file, **opts):
                 remedy="drop " + ", ".join("--" + o.replace("_", "-") for o in given),
             )
         model = scenario_model(opts["simulated"])
-        setup = dataclasses.replace(model.setup, relative=opts["relative"])
+        setup = model.setup
+        if opts["relative"]:  # the fit is told no scale (and on a divider, no fixture)
+            sense = None if setup.bench == "divider" else setup.sense_ohm
+            setup = dataclasses.replace(setup, relative=True, sense_ohm=sense)
         topology = opts["model"] or model.topology
         span = span or "{:g}:{:g}".format(*SCENARIOS[opts["simulated"]][2])
     else:

@@ -5,13 +5,16 @@ ln scale)`` of :mod:`fitkit.topologies` (and the ln of a coil's self-resonance),
 through the bench's :class:`~fitkit.setups.Setup`. An uncalibrated (relative) sweep adds
 the ln of its gain; where the bench leaves the scale open (a relative divider: only the
 shape counts) the gain stands in for it, the scale held. A loss growing as sqrt(f) is
-placed for as its plain circuit: near the resonance the two differ little. With complex readings of standard deviation ``sigma_i`` per real and imaginary
-part, the Fisher matrix is ``F = sum_i (Re J_i^T Re J_i + Im J_i^T Im J_i) / sigma_i^2``
+placed for as its plain circuit: near the resonance the two differ little.
+
+With complex readings of standard deviation ``sigma_i`` per real and imaginary part,
+the Fisher matrix is ``F = sum_i (Re J_i^T Re J_i + Im J_i^T Im J_i) / sigma_i^2``
 and no unbiased estimate of a value ``v(theta)`` beats ``var ln v >= g^T F^-1 g`` with
 ``g = d ln v / d theta`` (the Cramer-Rao bound; Kay, Fundamentals of Statistical Signal
 Processing: Estimation Theory, 1993, ch. 3, from memory). For a series circuit this is
 the bound :func:`fitkit.plan.cramer_rao` gives analytically (a test checks they agree);
-here the Jacobian is taken by central differences so the tank is served the same way.
+here the Jacobian is taken by central differences so the tank and the coil are served
+the same way.
 
 The next points are chosen greedily (a sequential c-optimal design): among candidate
 frequencies spread over the resonance in loaded bandwidths (:func:`fitkit.plan.

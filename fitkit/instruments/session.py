@@ -94,7 +94,19 @@ class SweepRequest:
             )
         if self.topology != "auto":
             get_topology(self.topology)  # refuses an unknown model, naming the known ones
-        if setup is not None and _shape_only(setup) and self.target not in SHAPE_TARGETS:
+        if setup is not None and _shape_only(setup):
+            self._check_shape_only()
+
+    def _check_shape_only(self) -> None:
+        """A relative divider sweep: only the shape's values, and no coil model."""
+        if self.topology.startswith("coil"):
+            raise SetupError(
+                "a relative divider sweep cannot tell the fixture's resistance from the "
+                "coil's loss, so the coil model does not fit it",
+                remedy="calibrate the ratio (drop --relative and give --sense-r), or fit the "
+                "series model (--model series)",
+            )
+        if self.target not in SHAPE_TARGETS:
             raise SetupError(
                 f"a relative divider sweep fixes only the resonance and the loaded Q, "
                 f"not {self.target}: nothing ties its scale to ohms",

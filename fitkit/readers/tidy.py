@@ -135,8 +135,7 @@ def _refuse_bad_sigma(sigma: np.ndarray, lines, path: Path, column) -> None:
     if bad.any():
         row = int(np.argmax(bad))
         raise InputError(
-            f"the per-point standard deviation {sigma[row]:g} is not a finite number above "
-            "zero",
+            f"the per-point standard deviation {sigma[row]:g} is not a finite number above zero",
             remedy="repair the cell (every row with a reading needs its standard deviation), "
             "or delete the column to fit without per-point weights",
             path=path,
