@@ -8,6 +8,7 @@ import sys
 import click
 
 from fitkit.cli.base import main, reports_errors
+from fitkit.topologies import TOPOLOGIES
 from fitkit.units import format_quantity
 
 _TARGET_NAMES = {
@@ -19,8 +20,6 @@ _TARGET_NAMES = {
     "QL": "Q_loaded",
     "bandwidth": "bandwidth_hz",
 }
-#: the model choices: those fit_sweep takes
-_MODELS = ["series", "tank", "coil", "series-sqrtf", "tank-sqrtf", "coil-sqrtf", "auto"]
 
 
 def _target(text: str) -> tuple:
@@ -114,14 +113,16 @@ def _progress(target: str):
 @click.option(
     "--relative",
     is_flag=True,
-    help="The ratio's scale is not calibrated (only its shape counts); on a divider "
-    "--sense-r may then be left out, and only f0 and the loaded Q are determined.",
+    help="The ratio's scale is not calibrated (only its shape counts). A relative "
+    "divider sweep needs no --sense-r and fixes only f0 and the loaded Q.",
 )
 @click.option(
     "--model",
-    type=click.Choice(_MODELS),
-    help="Circuit model fitted as points come in (as 'fitkit fit --model') "
-    "[default: series; the simulated bench's own with --simulated].",
+    type=click.Choice([*TOPOLOGIES, "auto"]),
+    metavar="MODEL",
+    help="Circuit model fitted as points come in, as for 'fitkit fit': series, tank, "
+    "coil, each also with -sqrtf, or auto [default: series; with --simulated, the "
+    "simulated circuit's].",
 )
 @click.option(
     "--target",
