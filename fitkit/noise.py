@@ -58,13 +58,18 @@ class Noise:
     def _describe_per_point(self, kind: str) -> str:
         low, high = self.per_point
         if self.domain == "additive":
-            unit = _UNIT_OF_KIND[kind]
-            span = f"{low:.3g} to {high:.3g} {unit}".rstrip()
-            return f"additive, per point from the file's sigma column: {span}"
-        text = f"{100 * low:.3g} % to {100 * high:.3g} % of the reading"
+            span = _span(low, high, _UNIT_OF_KIND[kind])
+            return f"additive, per point from the file's sigma column: {span}".rstrip()
+        text = f"{_span(100 * low, 100 * high, '%')} of the reading"
         if self.sigma_phase_rad is not None:
             text += " (and as many radians in phase)"
         return f"relative, per point from the file's sigma column: {text}"
+
+
+def _span(low: float, high: float, unit: str) -> str:
+    """'0.2 to 0.5 V', or '0.2 V' when both read the same."""
+    low_text, high_text = f"{low:.3g}", f"{high:.3g}"
+    return (low_text if low_text == high_text else f"{low_text} to {high_text}") + f" {unit}"
 
 
 def point_noise(sweep: Sweep) -> Noise:

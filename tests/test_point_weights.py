@@ -9,11 +9,15 @@ values and standard errors are what fitkit must report.
 
 from __future__ import annotations
 
+import re
+
 import numpy as np
 import pytest
+from click.testing import CliRunner
 from scipy.optimize import curve_fit
 
 from fitkit.circuits import series_rlc
+from fitkit.cli import main
 from fitkit.errors import InputError, SetupError
 from fitkit.fitting import fit_sweep
 from fitkit.readers import inspect_sweep, read_sweep
@@ -196,3 +200,14 @@ def test_bad_sigma_columns_are_refused_naming_the_place(tmp_path, text, message,
     with pytest.raises(InputError, match=message) as info:
         read_sweep(_write(tmp_path, text))
     assert where in str(info.value)
+
+
+def test_inspect_says_how_the_points_will_be_weighted(tmp_path):
+    text = "f (kHz);Gain (dB);Phase (deg);sigma (dB)\n1;-3;10;0.1\n2;-2;12;0.2\n"
+    result = CliRunner().invoke(main, ["inspect", str(_write(tmp_path, text))])
+    assert result.exit_code == 0
+    assert re.search(r"4  sigma \(dB\) +sigma in dB", result.stdout)
+    # 0.1 dB is 1.15 % of the reading: 20 log10(1 + x) = 0.1 gives x = 0.0116
+    assert "noise:    relative, per point from the file's sigma column: 1.15 % to 2.3 %" in (
+        result.stdout
+    )
