@@ -45,6 +45,7 @@ def test_acquire_on_the_simulated_bench_prints_the_fit_and_writes_both_files(tmp
         (["--simulated", "series", "--sense-r", "47"], "drop --sense-r"),
         (["--simulated", "series", "--relative", "--target", "L=1%"], "loaded Q, not L"),
         (["--simulated", "coil", "--relative"], "drop --relative and give --sense-r"),
+        (["--simulated", "series", "--target", "fself=1%"], "choose --model coil"),
     ],
 )
 def test_acquire_refuses_with_a_clear_message(tmp_path, args, message):

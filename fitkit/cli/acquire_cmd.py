@@ -8,18 +8,12 @@ import sys
 import click
 
 from fitkit.cli.base import main, reports_errors
+from fitkit.cli.plan_cmd import TARGET_NAMES
 from fitkit.topologies import TOPOLOGIES
 from fitkit.units import format_quantity
 
-_TARGET_NAMES = {
-    "R": "R",
-    "L": "L",
-    "C": "C",
-    "f0": "f0_hz",
-    "Q": "Q",
-    "QL": "Q_loaded",
-    "bandwidth": "bandwidth_hz",
-}
+#: the names --target takes: those of 'fitkit plan --target', and 'bandwidth'
+_TARGET_NAMES = {**TARGET_NAMES, "bandwidth": "bandwidth_hz"}
 
 
 def _target(text: str) -> tuple:
@@ -127,7 +121,7 @@ def _progress(target: str):
 @click.option(
     "--target",
     help="Stop when this value's standard uncertainty is reached, NAME=PERCENT "
-    "(NAME: R, L, C, f0, Q, QL for the loaded Q, bandwidth) "
+    "(NAME: R, L, C, f0, Q, QL the loaded Q, B or bandwidth, BL the loaded bandwidth) "
     "[default: Q=0.5%, QL=0.5% for a relative divider sweep].",
 )
 @click.option(

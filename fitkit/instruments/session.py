@@ -94,6 +94,13 @@ class SweepRequest:
             )
         if self.topology != "auto":
             get_topology(self.topology)  # refuses an unknown model, naming the known ones
+        family = _ONLY_IN.get(self.target)
+        if family and (self.topology == "auto" or get_topology(self.topology).family != family):
+            raise SetupError(
+                f"the {self.topology} model has no {self.target} to aim at",
+                remedy=f"choose --model {family}, or aim at a value every model has "
+                "(f0, Q, L, C...)",
+            )
         if setup is not None and _shape_only(setup):
             self._check_shape_only()
 
@@ -121,6 +128,8 @@ class SweepRequest:
             )
 
 
+#: targets only one family of models has
+_ONLY_IN = {"R_dynamic": "tank", "C_self": "coil", "f_self_hz": "coil"}
 #: what a relative divider sweep determines (its scale is open: see fitkit.setups)
 SHAPE_TARGETS = ("f0_hz", "Q_loaded", "loaded_bandwidth_hz")
 
