@@ -221,12 +221,12 @@ def _per_point_chi_square(redchi: float, nfree: int) -> list:
     if low <= redchi <= high:
         return []
     if redchi > high:
-        why = "the scatter is larger than the file's sigmas say, or the model does not fit"
+        why = "the scatter is larger than the sweep's sigmas say, or the model does not fit"
     else:
-        why = "the scatter is smaller than the file's sigmas say (the uncertainties are too large)"
+        why = "the scatter is smaller than the sweep's sigmas say (the uncertainties are too large)"
     return [
         (
-            f"reduced chi-square {redchi:.3g} with the file's per-point sigmas, outside "
+            f"reduced chi-square {redchi:.3g} with the sweep's per-point sigmas, outside "
             f"{low:.2f} to {high:.2f} (where 99.8 % of fits with true sigmas fall): {why}; "
             "the uncertainties are doubtful (check the sigma column and its unit, or fit "
             "with --noise estimate to take the level from the residuals)",

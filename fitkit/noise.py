@@ -59,11 +59,11 @@ class Noise:
         low, high = self.per_point
         if self.domain == "additive":
             span = _span(low, high, _UNIT_OF_KIND[kind])
-            return f"additive, per point from the file's sigma column: {span}".rstrip()
+            return f"additive, per point, the sweep's own sigmas: {span}".rstrip()
         text = f"{_span(100 * low, 100 * high, '%')} of the reading"
         if self.sigma_phase_rad is not None:
             text += " (and as many radians in phase)"
-        return f"relative, per point from the file's sigma column: {text}"
+        return f"relative, per point, the sweep's own sigmas: {text}"
 
 
 def _span(low: float, high: float, unit: str) -> str:

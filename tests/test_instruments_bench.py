@@ -127,7 +127,7 @@ def test_the_written_sigma_column_weights_the_fit_of_the_file(tmp_path):
     assert sweep.sigma == pytest.approx([p.sigma for p in by_freq], rel=1e-3)
     write_setup_file(tmp_path, sim.setup, force=True)
     fit, _ = fit_file(out, topology="series")
-    assert fit.stats.noise.startswith("additive, per point from the file's sigma column")
+    assert fit.stats.noise.startswith("additive, per point, the sweep's own sigmas")
     # the sine fits' sigmas are honest (IEEE Std 1057 residual variance): the reduced
     # chi-square against them stays within the chi-square range the fit accepts
     assert not any("per-point sigmas" in w for w in fit.stats.warnings)

@@ -66,7 +66,7 @@ def test_acquire_takes_a_relative_sweep_without_fixture_values(tmp_path):
     assert "relative = true" in setup_text and "sense_resistor" not in setup_text
     again = _invoke("fit", out, "--model", "series", "--noise", "column")
     assert again.exit_code == 0
-    assert "per point from the file's sigma column" in again.stdout
+    assert "per point, the sweep's own sigmas" in again.stdout
 
 
 def test_acquire_fits_the_coil_model_as_points_come_in(tmp_path):

@@ -75,7 +75,7 @@ def test_weighted_fit_agrees_with_curve_fit_and_weighting_changes_the_answer():
     for name, v, e in zip("RLC", values, errors):
         assert fit[name].value == pytest.approx(v, abs=0.01 * e), name
         assert fit[name].stderr == pytest.approx(e, rel=0.01), name
-    assert fit.stats.noise.startswith("additive, per point from the file's sigma column")
+    assert fit.stats.noise.startswith("additive, per point, the sweep's own sigmas")
     # the same data fitted with equal weights lands elsewhere: the weights count here
     plain, _ = _reference(data, None)
     assert max(abs(p - v) / e for p, v, e in zip(plain, values, errors)) > 1.0
@@ -208,6 +208,6 @@ def test_inspect_says_how_the_points_will_be_weighted(tmp_path):
     assert result.exit_code == 0
     assert re.search(r"4  sigma \(dB\) +sigma in dB", result.stdout)
     # 0.1 dB is 1.15 % of the reading: 20 log10(1 + x) = 0.1 gives x = 0.0116
-    assert "noise:    relative, per point from the file's sigma column: 1.15 % to 2.3 %" in (
+    assert "noise:    relative, per point, the sweep's own sigmas: 1.15 % to 2.3 %" in (
         result.stdout
     )
