@@ -209,6 +209,8 @@ def resonance_evidence(problem: FitProblem, first: FirstPass) -> float:
     else:
         y = d
     design = np.column_stack([np.ones_like(x), x]).astype(y.dtype)
+    if problem.spread is not None:  # weighted as the circuit's criterion is
+        y, design = y / problem.spread[idx], design / problem.spread[idx][:, None]
     coef, *_ = np.linalg.lstsq(design, y, rcond=None)
     r = y - design @ coef
     r = np.concatenate([r.real, r.imag]) if np.iscomplexobj(r) else r
@@ -220,5 +222,5 @@ def resonance_evidence(problem: FitProblem, first: FirstPass) -> float:
 
 
 def _has_structure(problem: FitProblem, first: FirstPass) -> bool:
-    a, b = problem.raw_residual(first.params.valuesdict(), first.used, first.domain)
+    a, b = problem.scaled_residual(first.params.valuesdict(), first.used, first.domain)
     return bool(check_structure({"magnitude": a, "phase": b}, alpha=_LOOSE))
