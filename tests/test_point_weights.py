@@ -208,6 +208,5 @@ def test_inspect_says_how_the_points_will_be_weighted(tmp_path):
     assert result.exit_code == 0
     assert re.search(r"4  sigma \(dB\) +sigma in dB", result.stdout)
     # 0.1 dB is 1.15 % of the reading: 20 log10(1 + x) = 0.1 gives x = 0.0116
-    assert "noise:    relative, per point, the sweep's own sigmas: 1.15 to 2.3 %" in (
-        result.stdout
-    )
+    line = "noise:    relative, per point, the sweep's own sigmas: 1.15 to 2.3 %"
+    assert line in result.stdout
