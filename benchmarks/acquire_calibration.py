@@ -1,6 +1,6 @@
 """Are the uncertainties of an acquired sweep honest? Errors in units of stated errors.
 
-Run: ``python benchmarks/acquire_calibration.py`` (about two minutes on 2 cores). For
+Run: ``python benchmarks/acquire_calibration.py`` (a few minutes on 2 cores). For
 each simulated circuit and seed, an adaptive sweep to Q = 0.2 % is taken from the
 simulated bench through pyvisa, with and without equal noise (longer records for noisy
 points), and every fitted value is compared with the simulator's circuit:

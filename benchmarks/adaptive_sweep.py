@@ -3,7 +3,7 @@
 Run: ``python benchmarks/adaptive_sweep.py`` (about a minute on 2 cores). Both sweeps are
 taken from the simulated bench through pyvisa and pyvisa-py, each point read the same way
 (sine fits of 400-sample records, 10 mV noise per sample); the circuit is fitted with
-``fit_sweep`` and the noise estimated from the residuals.
+``fit_sweep``, each point weighted by its own sigma from the sine fits.
 
 - adaptive: ``take_sweep`` (21-point geometric coarse pass, then 4 points a round where
   the Fisher information is largest) until the fit's relative standard uncertainty of Q
@@ -67,8 +67,11 @@ def linear(model, span) -> tuple:
             n = 25
             while True:
                 f = np.linspace(*span, n)
-                values = np.array([reader.read(x).ratio for x in f])
-                fit = fit_sweep(Sweep(f, values, "ratio"), model.setup, topology=model.topology)
+                points = [reader.read(x) for x in f]
+                values = np.array([pt.ratio for pt in points])
+                sigma = np.array([pt.sigma for pt in points])  # weighted as acquire's fit is
+                sweep = Sweep(f, values, "ratio", sigma=sigma)
+                fit = fit_sweep(sweep, model.setup, topology=model.topology)
                 rel = fit["Q"].stderr / fit["Q"].value
                 if rel <= TARGET or n >= 3200:
                     return n, rel
@@ -76,7 +79,7 @@ def linear(model, span) -> tuple:
 
 
 def main() -> None:
-    print(f"target: Q to {TARGET:.1%}; span 100 kHz to 1 MHz; python {sys.version.split()[0]}")
+    print(f"target: Q to {TARGET:.1%}; python {sys.version.split()[0]}")
     ratios = []
     with tempfile.TemporaryDirectory() as tmp:
         for name, (_, _, span) in SCENARIOS.items():
@@ -87,7 +90,8 @@ def main() -> None:
                 need = n_l * (rel_l / TARGET) ** 2
                 ratios.append((need / n_a, need / rec_a))
                 print(
-                    f"{name:6s} seed {seed}: adaptive {n_a:3d} points, {rec_a:5.1f} records "
+                    f"{name:6s} {span[0] / 1e3:g}k-{span[1] / 1e3:g}k seed {seed}: "
+                    f"adaptive {n_a:3d} points, {rec_a:5.1f} records "
                     f"({rel_a:.3%}); linear {n_l:4d} points ({rel_l:.3%}), needs ~{need:.0f}; "
                     f"ratio {need / n_a:.1f} in points, {need / rec_a:.1f} in records"
                 )

@@ -42,11 +42,12 @@ def intervals(problem, values: dict, free, used, noise: Noise, names: list) -> d
     if not problem.sweep.is_complex:
         model = np.abs(model)
     draws = {n: [] for n in names}
+    spread = 1.0 if problem.spread is None else problem.spread[used]
     original = problem.data
     try:
         for _ in range(REPLICATES):
             problem.data = original.copy()
-            problem.data[used] = _noisy(model, noise, rng)
+            problem.data[used] = _noisy(model, noise, rng, spread)
             try:
                 trial, _ = problem.quick_minimize(values, free, used, noise)
             except (ArithmeticError, ValueError, np.linalg.LinAlgError):
@@ -65,13 +66,15 @@ def intervals(problem, values: dict, free, used, noise: Noise, names: list) -> d
     return out
 
 
-def _noisy(model: np.ndarray, noise: Noise, rng) -> np.ndarray:
+def _noisy(model: np.ndarray, noise: Noise, rng, spread) -> np.ndarray:
+    """A draw of the model with the noise found (each point's spread times its level)."""
     n = model.size
+    sigma = noise.sigma * spread
     if noise.domain == "additive":
         if np.iscomplexobj(model):
-            return model + noise.sigma * (rng.normal(size=n) + 1j * rng.normal(size=n))
-        return model + noise.sigma * rng.normal(size=n)
+            return model + sigma * (rng.normal(size=n) + 1j * rng.normal(size=n))
+        return model + sigma * rng.normal(size=n)
     if np.iscomplexobj(model):
-        phase = noise.sigma_phase_rad or noise.sigma
-        return model * np.exp(noise.sigma * rng.normal(size=n) + 1j * phase * rng.normal(size=n))
-    return model * np.exp(noise.sigma * rng.normal(size=n))
+        phase = (noise.sigma_phase_rad or noise.sigma) * spread
+        return model * np.exp(sigma * rng.normal(size=n) + 1j * phase * rng.normal(size=n))
+    return model * np.exp(sigma * rng.normal(size=n))

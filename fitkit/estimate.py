@@ -96,7 +96,7 @@ def estimate_start(
     if setup.is_calibrated:
         scale, mirror = search.scale(f0, q)
         return Start(f0, q, scale, 1.0, method, extras, mirror)
-    scale = max(setup.external_ohm, 1.0)
+    scale = setup.external_ohm + 1.0  # a lossless start can sit on a pole of the model
     model = predicted(setup, f, f0, q, scale, topology=topology, extras=extras)
     return Start(f0, q, scale, _best_gain(model, sweep.values), method, extras)
 

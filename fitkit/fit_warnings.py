@@ -16,6 +16,7 @@ from __future__ import annotations
 import math
 
 import numpy as np
+from scipy.stats import chi2
 
 from fitkit.adequacy import check_circle, check_structure
 from fitkit.estimate import dip_contrast
@@ -78,7 +79,9 @@ def fit_warnings(problem, result, redchi: float, q: dict, first, noise) -> list:
     domain_hint = _noise_domain_hint(problem, result, noise, used)
     if domain_hint:
         out.append((domain_hint, "all"))
-    if noise.stated:
+    if noise.per_point is not None:
+        out.extend(_per_point_chi_square(redchi, result.nfree))
+    elif noise.stated:
         dof = max(result.nfree, 1)
         if redchi > 1.0 + 4.0 * math.sqrt(2.0 / dof):
             out.append(
@@ -139,7 +142,7 @@ def points_in_band(problem, q: dict, used) -> int | None:
 def _adequacy(problem, result, noise, used) -> list:
     """The model-adequacy checks on the last pass's residuals (see fitkit.adequacy)."""
     values = result.params.valuesdict()
-    a, b = problem.raw_residual(values, used, noise.domain)
+    a, b = problem.scaled_residual(values, used, noise.domain)
     if noise.domain == "additive" and b is not None:
         # along and across the model's direction: its magnitude and its phase
         model = problem.model(values, used)
@@ -182,6 +185,8 @@ def _noise_domain_hint(problem, result, noise, used) -> str:
     """
     if noise.domain != "additive" or used.size < 30 or not (noise.stated or noise.fixed_domain):
         return ""
+    if noise.per_point is not None:  # each point's scatter is stated, growing or not
+        return ""
     a, b = problem.raw_residual(result.params.valuesdict(), used, "additive")
     size = np.abs(a) if b is None else np.hypot(a, b)
     reading = np.abs(problem.data[used])
@@ -200,3 +205,31 @@ def _rank_correlation(x: np.ndarray, y: np.ndarray) -> float:
     rx = np.argsort(np.argsort(x))
     ry = np.argsort(np.argsort(y))
     return float(np.corrcoef(rx, ry)[0, 1])
+
+
+#: the share of honest fits whose chi-square falls below (above) the accepted range
+_CHI_SQUARE_TAIL = 0.001
+
+
+def _per_point_chi_square(redchi: float, nfree: int) -> list:
+    """Per-point sigmas from the file are taken as stated, the covariance not rescaled;
+    a chi-square outside the central 99.8 % of the chi-square distribution for these
+    degrees of freedom (stated sigmas true and the model right) says they are wrong,
+    and the values' uncertainties with them."""
+    dof = max(int(nfree), 1)
+    low, high = (chi2.ppf(p, dof) / dof for p in (_CHI_SQUARE_TAIL, 1.0 - _CHI_SQUARE_TAIL))
+    if low <= redchi <= high:
+        return []
+    if redchi > high:
+        why = "the scatter is larger than the sweep's sigmas say, or the model does not fit"
+    else:
+        why = "the scatter is smaller than the sweep's sigmas say (the uncertainties are too large)"
+    return [
+        (
+            f"reduced chi-square {redchi:.3g} with the sweep's per-point sigmas, outside "
+            f"{low:.2f} to {high:.2f} (where 99.8 % of fits with true sigmas fall): {why}; "
+            "the uncertainties are doubtful (check the sigma column and its unit, or fit "
+            "with --noise estimate to take the level from the residuals)",
+            "all",
+        )
+    ]

@@ -75,9 +75,12 @@ def fit_sweep(
         Values measured otherwise, e.g. ``{"L": (100e-6, 0.5e-6)}`` (value, standard
         error) from an LCR meter; one of them pins the scale of a relative sweep.
     noise : str, optional
-        ``"auto"`` (default: even or proportional noise, chosen by the data, its level
-        estimated), ``"additive"`` or ``"relative"`` (that model, level estimated), or a
-        stated level (see :func:`fitkit.noise.parse_noise`).
+        ``"auto"`` (default: each point's own standard deviation when the sweep gives
+        them, ``sweep.sigma``, taken as stated; otherwise even or proportional noise,
+        chosen by the data, its level estimated), ``"column"`` (the per-point ones,
+        required), ``"estimate"`` (ignore them; as auto without), ``"additive"`` or
+        ``"relative"`` (that model, level estimated), or a stated level (see
+        :func:`fitkit.noise.parse_noise`).
     keep_outliers : bool
         Keep points far from the model instead of refitting without them.
 
@@ -97,6 +100,8 @@ def fit_sweep(
     """
     known = _check_known(known or {})
     noise_model = parse_noise(noise, sweep)
+    if sweep.sigma is not None and noise_model.per_point is None:  # the user chose otherwise
+        sweep = dataclasses.replace(sweep, sigma=None)
     if sweep.points < 6:
         raise FitError(
             f"the sweep has only {sweep.points} points",

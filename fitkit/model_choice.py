@@ -279,10 +279,13 @@ def resonance_evidence(problem: FitProblem, first: FirstPass) -> float:
             y = np.log(d) if np.iscomplexobj(d) else np.log(np.abs(d))
     else:
         y = d
-    # the straight line by its closed form (centred x: intercept and slope apart)
-    xc = x - x.mean()
-    slope = np.dot(xc, y) / max(float(np.dot(xc, xc)), 1e-300)
-    r = y - y.mean() - slope * xc
+    # the straight line by (weighted) least squares in closed form, weighted as the
+    # circuit's criterion is when the points carry their own sigmas
+    spread = np.ones_like(x) if problem.spread is None else problem.spread[idx]
+    weight = 1.0 / spread**2
+    xc = x - np.dot(weight, x) / weight.sum()
+    slope = np.dot(weight * xc, y) / max(float(np.dot(weight * xc, xc)), 1e-300)
+    r = (y - np.dot(weight, y) / weight.sum() - slope * xc) / spread
     r = np.concatenate([r.real, r.imag]) if np.iscomplexobj(r) else r
     if not np.all(np.isfinite(r)):
         return np.inf
@@ -292,5 +295,5 @@ def resonance_evidence(problem: FitProblem, first: FirstPass) -> float:
 
 
 def _has_structure(problem: FitProblem, first: FirstPass) -> bool:
-    a, b = problem.raw_residual(first.values, first.used, first.domain)
+    a, b = problem.scaled_residual(first.values, first.used, first.domain)
     return bool(check_structure({"magnitude": a, "phase": b}, alpha=_LOOSE))

@@ -8,7 +8,10 @@
   imaginary part the phase error, each weighted by its own sigma.
 
 A stated noise makes the reduced chi-square a check of the model; an estimated one is
-taken from the residuals of a first pass, magnitude and phase separately.
+taken from the residuals of a first pass, magnitude and phase separately. A sweep whose
+file gives each point's own standard deviation (:attr:`fitkit.sweep.Sweep.sigma`) is
+weighted point by point (:func:`point_noise`): additive for an absolute column, relative
+for one relative to the reading; that noise is stated, not estimated.
 """
 
 from __future__ import annotations
@@ -36,8 +39,13 @@ class Noise:
     sigma_phase_rad: float | None = None
     stated: bool = False
     fixed_domain: bool = False  # the user chose the domain; its level is estimated
+    #: (smallest, largest) sigma of a sweep weighted point by point; ``sigma`` is then
+    #: their median, and each point's own is ``sigma`` times the problem's spread
+    per_point: tuple | None = None
 
     def describe(self, kind: str) -> str:
+        if self.per_point is not None:
+            return self._describe_per_point(kind)
         how = "stated" if self.stated else "estimated from the fit residuals"
         if self.domain == "additive":
             unit = _UNIT_OF_KIND[kind]
@@ -46,6 +54,44 @@ class Noise:
         if self.sigma_phase_rad is not None:
             text += f", {math.degrees(self.sigma_phase_rad):.3g} deg in phase"
         return text
+
+    def _describe_per_point(self, kind: str) -> str:
+        low, high = self.per_point
+        if self.domain == "additive":
+            span = _span(low, high, _UNIT_OF_KIND[kind])
+            return f"additive, per point, the sweep's own sigmas: {span}".rstrip()
+        text = f"{_span(100 * low, 100 * high, '%')} of the reading"
+        if self.sigma_phase_rad is not None:
+            text += " (and as many radians in phase)"
+        return f"relative, per point, the sweep's own sigmas: {text}"
+
+
+def _span(low: float, high: float, unit: str) -> str:
+    """'0.2 to 0.5 V', or '0.2 V' when both read the same."""
+    low_text, high_text = f"{low:.3g}", f"{high:.3g}"
+    return (low_text if low_text == high_text else f"{low_text} to {high_text}") + f" {unit}"
+
+
+def point_noise(sweep: Sweep) -> Noise:
+    """The stated noise of a sweep whose file gives each point's standard deviation.
+
+    Raises
+    ------
+    SetupError
+        When the sweep gives none.
+    """
+    if sweep.sigma is None:
+        raise SetupError(
+            "the sweep gives no per-point standard deviation to weight by",
+            remedy="add a column such as 'sigma' (in the readings' unit, % or dB), or "
+            "drop '--noise column'",
+            path=sweep.source,
+        )
+    s = sweep.sigma
+    domain = "relative" if sweep.sigma_relative else "additive"
+    typical = float(np.median(s))
+    phase = typical if (domain == "relative" and sweep.is_complex) else None
+    return Noise(domain, typical, phase, stated=True, per_point=(float(s.min()), float(s.max())))
 
 
 def default_domain(sweep: Sweep) -> str:
@@ -56,7 +102,10 @@ def default_domain(sweep: Sweep) -> str:
 def parse_noise(text: str | None, sweep: Sweep) -> Noise:
     """Read a stated noise level, or choose the domain for an estimated one.
 
-    ``"auto"`` (or nothing) lets the data choose between even and proportional noise;
+    ``"auto"`` (or nothing) weights by the sweep's per-point standard deviations when
+    its file gives them (:func:`point_noise`), and otherwise lets the data choose
+    between even and proportional noise; ``"column"`` asks for the per-point weights
+    (refused without them); ``"estimate"`` ignores them and lets the data choose;
     ``"additive"`` or ``"relative"`` imposes that model with its level estimated.
     Stated levels: ``"0.05dB"``, ``"0.05dB,0.3deg"``, ``"1%"`` (relative; phase in
     radians equal to the relative magnitude error unless given), or a plain number such
@@ -68,6 +117,8 @@ def parse_noise(text: str | None, sweep: Sweep) -> Noise:
         When the text is none of these.
     """
     word = "" if text is None else str(text).strip().lower()
+    if word == "column" or (word in ("", "auto") and sweep.sigma is not None):
+        return point_noise(sweep)
     if word in ("", "auto", "estimate"):
         return Noise(default_domain(sweep))
     if word in ("additive", "relative"):
@@ -79,7 +130,7 @@ def parse_noise(text: str | None, sweep: Sweep) -> Noise:
         if not m or not 0 < float(m.group(1)) < math.inf:
             raise SetupError(
                 f"cannot read the noise level {text!r}",
-                remedy="write auto, additive or relative (level estimated), or a level: "
+                remedy="write auto, column, estimate, additive or relative, or a level: "
                 "'0.05dB', '0.05dB,0.3deg', '1%' or an additive '2e-3'",
             )
         value, unit = float(m.group(1)), m.group(2)

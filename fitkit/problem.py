@@ -82,6 +82,9 @@ class FitProblem:
         self.may_keep_first = True  # the first pass may stand as the last (noise estimated)
         self.f = sweep.freq_hz
         self.data = sweep.values
+        # each point's own sigma over their median (None: all alike); every pass, with
+        # unit or stated noise, weights by it
+        self.spread = None if sweep.sigma is None else sweep.sigma / np.median(sweep.sigma)
         self.coefficients = setup.coefficients(self.f)
         self._subset = (None, None)
         # generous bounds keep a wandering candidate model finite; a fit that ends on
@@ -156,6 +159,13 @@ class FitProblem:
             return lr.real, lr.imag
         return np.log(np.abs(ratio)), None
 
+    def scaled_residual(self, values: dict, idx, domain: str) -> tuple:
+        """The raw residual over each point's spread (as it is when all are alike)."""
+        a, b = self.raw_residual(values, idx, domain)
+        if self.spread is None:
+            return a, b
+        return a / self.spread[idx], None if b is None else b / self.spread[idx]
+
     def residual(self, params, idx, noise: Noise) -> np.ndarray:
         return self.residual_values(params.valuesdict(), idx, noise)
 
@@ -167,8 +177,14 @@ class FitProblem:
         return np.where(np.isfinite(out), out, 1e6)
 
     def weights(self, noise: Noise, idx) -> tuple:
-        """The sigmas the residual's two parts are divided by."""
-        return noise.sigma, noise.sigma if noise.domain == "additive" else noise.sigma_phase_rad
+        """The sigmas the residual's two parts are divided by (times each point's own
+        spread, when the sweep carries one)."""
+        first = noise.sigma
+        second = noise.sigma if noise.domain == "additive" else noise.sigma_phase_rad
+        if self.spread is None:
+            return first, second
+        spread = self.spread[idx]
+        return first * spread, None if second is None else second * spread
 
     def jacobian(self, values: dict, names: list, idx, noise: Noise) -> np.ndarray:
         """d(residual_values)/d(the internal parameters ``names``), in closed form."""
@@ -354,7 +370,8 @@ class FitProblem:
         from memory) counts 0.2 to 0.5 as risky and above 0.5 as a point that fixes its
         own fitted value."""
         idx, domain = first.used, first.domain
-        a, b = self.raw_residual(first.values, idx, domain)
+        # judged against each point's own scatter
+        a, b = self.scaled_residual(first.values, idx, domain)
         flagged = np.zeros(idx.size, dtype=bool)
         size = np.zeros(idx.size)
         for comp in [a] if b is None else [a, b]:
@@ -386,9 +403,10 @@ class FitProblem:
         return hat.reshape(-1, idx.size).sum(axis=0)
 
     def estimate_noise(self, first: FirstPass) -> Noise:
-        """Noise from the residuals of the first pass, magnitude and phase apart."""
+        """Noise from the residuals of the first pass, magnitude and phase apart (the
+        level by which each point's spread is multiplied, when the sweep has one)."""
         domain = first.domain
-        a, b = self.raw_residual(first.values, first.used, domain)
+        a, b = self.scaled_residual(first.values, first.used, domain)
         ncomp = 1 if b is None else 2
         nvary = len(first.free)
         dof_share = max(1.0 - nvary / (ncomp * first.used.size), 0.5)

@@ -1,7 +1,9 @@
 """The Sweep record: what an instrument measured, in SI, with nothing about file formats.
 
 Readers make Sweeps; fitting reads them. A Sweep is checked when made: frequencies finite,
-positive, ascending and unique; the measured values finite and the same length.
+positive, ascending and unique; the measured values finite and the same length; each
+point's own standard deviation, when the file gives one, finite, above zero and one per
+point.
 """
 
 from __future__ import annotations
@@ -43,6 +45,14 @@ class Sweep:
     sha256 : str or None
         The SHA-256 of the file's bytes as the reader read them (None for a sweep made
         in memory), so reports and batches need not read the file again.
+    sigma : ndarray of float64 or None
+        Each point's own standard deviation, when the file states one (None otherwise).
+        Absolute (``sigma_relative`` False): in the unit of ``values`` (SI), the same on
+        the real and on the imaginary part of a complex value, or of the magnitude.
+        Relative (``sigma_relative`` True): of the natural log of the magnitude (a
+        fraction of the reading) and, for complex values, of the phase in radians.
+    sigma_relative : bool
+        ``sigma`` is relative to the reading (see ``sigma``).
     """
 
     freq_hz: np.ndarray
@@ -53,6 +63,8 @@ class Sweep:
     metadata: dict = field(default_factory=dict)
     notes: list = field(default_factory=list)
     sha256: str | None = None
+    sigma: np.ndarray | None = None
+    sigma_relative: bool = False
 
     def __post_init__(self) -> None:
         f = np.asarray(self.freq_hz, dtype=np.float64)
@@ -95,6 +107,28 @@ class Sweep:
             raise InputError(
                 "frequencies are not ascending and unique",
                 remedy="sort the sweep and merge repeated frequencies",
+                path=self.source,
+            )
+        if self.sigma is not None:
+            self._check_sigma(f.size)
+
+    def _check_sigma(self, points: int) -> None:
+        s = np.asarray(self.sigma, dtype=np.float64)
+        object.__setattr__(self, "sigma", s)
+        if s.shape != (points,):
+            raise InputError(
+                f"{s.size} per-point standard deviations for {points} points",
+                remedy="give one standard deviation per point, or none",
+                path=self.source,
+            )
+        bad = ~np.isfinite(s) | (s <= 0)
+        if bad.any():
+            i = int(np.argmax(bad))
+            raise InputError(
+                f"the standard deviation {s[i]:g} of the point at {self.freq_hz[i]:g} Hz is "
+                "not a finite number above zero",
+                remedy="repair the uncertainty column, or delete it to fit without "
+                "per-point weights",
                 path=self.source,
             )
 

@@ -35,7 +35,9 @@ def fit_file(
     known : tuple of str
         Known values as typed, e.g. ``("L=100u+-0.5u",)``.
     noise : str, optional
-        ``"auto"`` (default), ``"additive"``, ``"relative"`` or a stated noise level.
+        ``"auto"`` (default: the file's per-point sigma column when it has one),
+        ``"column"``, ``"estimate"``, ``"additive"``, ``"relative"`` or a stated noise
+        level (see :func:`fitkit.fitting.fit_sweep`).
     keep_outliers : bool
         Keep outlying points.
     topology : str

@@ -17,15 +17,16 @@ import pytest
 pytest.importorskip("pyvisa_py")
 
 from fitkit.errors import SetupError  # noqa: E402
-from fitkit.instruments.bench_model import scenario_model  # noqa: E402
+from fitkit.instruments.bench_model import SCENARIOS, scenario_model  # noqa: E402
 from fitkit.instruments.powered import powered  # noqa: E402
 from fitkit.instruments.profile import load_profile  # noqa: E402
 from fitkit.instruments.reading import ReadSettings  # noqa: E402
 from fitkit.instruments.session import SweepRequest, take_sweep  # noqa: E402
 from fitkit.instruments.simbench import SimulatedBench  # noqa: E402
-from fitkit.instruments.sweep_file import read_points  # noqa: E402
+from fitkit.instruments.sweep_file import read_points, write_setup_file  # noqa: E402
 from fitkit.instruments.transport import InstrumentError  # noqa: E402
 from fitkit.readers import read_sweep  # noqa: E402
+from fitkit.workflow import fit_file  # noqa: E402
 
 FAST = ReadSettings(settle_periods=0, settle_min_s=0, record_points=400)
 
@@ -37,7 +38,7 @@ def _take(bench, sim, request, out, **options):
     return take_sweep(request, sim.setup, profile, bench.addresses, out, **options)
 
 
-@pytest.mark.parametrize("scenario", ["series", "tank"])
+@pytest.mark.parametrize("scenario", ["series", "tank", "coil"])
 def test_adaptive_sweep_recovers_the_simulated_circuit(tmp_path, scenario):
     seen_on, holder = [], {}
 
@@ -45,7 +46,8 @@ def test_adaptive_sweep_recovers_the_simulated_circuit(tmp_path, scenario):
         seen_on.append(holder["bench"].output_on)
 
     sim = scenario_model(scenario)
-    request = SweepRequest(100e3, 1e6, topology=sim.topology, target="Q", target_rel=0.005)
+    span = SCENARIOS[scenario][2]
+    request = SweepRequest(*span, topology=sim.topology, target="Q", target_rel=0.005)
     out = tmp_path / "sweep.csv"
     with SimulatedBench(sim) as bench:
         holder["bench"] = bench
@@ -53,12 +55,16 @@ def test_adaptive_sweep_recovers_the_simulated_circuit(tmp_path, scenario):
         assert not bench.output_on  # off at the end
     assert all(seen_on)  # on during the sweep
     assert taken.stopped.startswith("target reached")
-    # a series circuit loads the generator at resonance: its noisier points there were
-    # read with much longer records; the tank, fed through 10 kohm, hardly loads it
+    # a series circuit (or coil) loads the generator at resonance: its noisier points
+    # there were read with much longer records; the tank, fed through 10 kohm, hardly
+    # loads it
     longest = max(p.length for p in taken.points)
-    assert longest > 3 if scenario == "series" else longest < 2
+    assert longest > 3 if scenario != "tank" else longest < 2
     fit = taken.fit
-    for name, truth in (("R", sim.r_ohm), ("L", sim.l_h), ("C", sim.c_f)):
+    truths = [("R", sim.r_ohm), ("L", sim.l_h), ("C", sim.c_f)]
+    if scenario == "coil":
+        truths.append(("C_self", sim.c_self_f))
+    for name, truth in truths:
         q = fit[name]
         assert abs(q.value - truth) < 4 * q.stderr, (name, q.value, q.stderr, truth)
     # the file is an ordinary sweep file, identities in its metadata
@@ -66,6 +72,68 @@ def test_adaptive_sweep_recovers_the_simulated_circuit(tmp_path, scenario):
     assert sweep.points == len(taken.points)
     assert "simulated generator" in sweep.metadata["generator"]
     assert "simulated digitiser" in sweep.metadata["digitiser"]
+
+
+@pytest.mark.parametrize(
+    ("scenario", "target", "truths"),
+    [
+        # a relative divider, no fixture values: H = gain / Z_loop fixes f0 and the
+        # loaded Q only, Q_loaded = sqrt(L/C) / (R + Rsense) (series R-L-C; any
+        # circuits text)
+        ("series", "Q_loaded", ("f0", "Q_loaded")),
+        # across a tank fed through a known resistor the shape also fixes the scale
+        ("tank", "Q_loaded", ("R", "L", "C")),
+    ],
+)
+def test_relative_sweep_recovers_what_its_shape_determines(tmp_path, scenario, target, truths):
+    sim = scenario_model(scenario)
+    sense = None if sim.setup.bench == "divider" else sim.setup.sense_ohm
+    setup = replace(sim.setup, relative=True, sense_ohm=sense)
+    request = SweepRequest(
+        *SCENARIOS[scenario][2], topology=sim.topology, target=target, target_rel=0.005
+    )
+    with SimulatedBench(sim) as bench:
+        taken = take_sweep(
+            request, setup, load_profile(), bench.addresses, tmp_path / "s.csv", settings=FAST
+        )
+    assert taken.stopped.startswith("target reached")
+    f0 = 1 / (2 * math.pi * math.sqrt(sim.l_h * sim.c_f))
+    known = {"R": sim.r_ohm, "L": sim.l_h, "C": sim.c_f, "f0": f0}
+    known["Q_loaded"] = math.sqrt(sim.l_h / sim.c_f) / (sim.r_ohm + sim.setup.external_ohm)
+    for name in truths:
+        q = taken.fit[name]
+        assert abs(q.value - known[name]) < 4 * q.stderr, (name, q.value, q.stderr)
+    if scenario == "series":
+        assert not taken.fit["L"].determined
+
+
+def test_a_relative_divider_sweep_refuses_a_target_it_cannot_reach(tmp_path):
+    setup = replace(scenario_model("series").setup, relative=True)
+    request = SweepRequest(100e3, 1e6, target="L")
+    addresses = {"generator": "TCPIP::127.0.0.1::9::SOCKET", "digitiser": "unused"}
+    with pytest.raises(SetupError, match="fixes only the resonance and the loaded Q, not L"):
+        take_sweep(request, setup, load_profile(), addresses, tmp_path / "s.csv")
+    assert not (tmp_path / "s.csv").exists()
+
+
+def test_the_written_sigma_column_weights_the_fit_of_the_file(tmp_path):
+    sim = scenario_model("series")
+    out = tmp_path / "sweep.csv"
+    request = SweepRequest(100e3, 1e6, target_rel=0.01, max_points=40)
+    with SimulatedBench(sim) as bench:
+        taken = _take(bench, sim, request, out)
+    sweep = read_sweep(out)
+    by_freq = sorted(taken.points, key=lambda p: p.freq_hz)
+    assert sweep.sigma == pytest.approx([p.sigma for p in by_freq], rel=1e-3)
+    write_setup_file(tmp_path, sim.setup, force=True)
+    fit, _ = fit_file(out, topology="series")
+    assert fit.stats.noise.startswith("additive, per point, the sweep's own sigmas")
+    # the sine fits' sigmas are honest (IEEE Std 1057 residual variance): the reduced
+    # chi-square against them stays within the chi-square range the fit accepts
+    assert not any("per-point sigmas" in w for w in fit.stats.warnings)
+    plain, _ = fit_file(out, topology="series", noise="estimate")
+    assert "estimated" in plain.stats.noise
+    assert plain["L"].value != fit["L"].value
 
 
 def _check_failure(bench, out, exc_info, message):

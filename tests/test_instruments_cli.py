@@ -43,6 +43,9 @@ def test_acquire_on_the_simulated_bench_prints_the_fit_and_writes_both_files(tmp
         (["--simulated", "series", "--target", "Q=0.5"], "cannot read the target"),
         (["--simulated", "series", "--resume"], "there is no sweep to continue"),
         (["--simulated", "series", "--sense-r", "47"], "drop --sense-r"),
+        (["--simulated", "series", "--relative", "--target", "L=1%"], "loaded Q, not L"),
+        (["--simulated", "coil", "--relative"], "drop --relative and give --sense-r"),
+        (["--simulated", "series", "--target", "fself=1%"], "choose --model coil"),
     ],
 )
 def test_acquire_refuses_with_a_clear_message(tmp_path, args, message):
@@ -50,6 +53,40 @@ def test_acquire_refuses_with_a_clear_message(tmp_path, args, message):
     assert result.exit_code == 2
     assert message in result.stderr
     assert not (tmp_path / "s.csv").exists()
+
+
+def test_acquire_takes_a_relative_sweep_without_fixture_values(tmp_path):
+    out = tmp_path / "sweep.csv"
+    args = ["--simulated", "series", "--relative", "--settle-min", "0", "--max-points", "40"]
+    result = _invoke("acquire", out, *args)
+    assert result.exit_code == 0, result.output
+    assert "relative scale and no fixture values: only the shape counts" in result.stdout
+    assert " Q_loaded " in result.stderr  # a relative divider aims at the loaded Q by default
+    setup_text = (tmp_path / "fitkit-setup.toml").read_text(encoding="utf-8")
+    assert "relative = true" in setup_text and "sense_resistor" not in setup_text
+    again = _invoke("fit", out, "--model", "series", "--noise", "column")
+    assert again.exit_code == 0
+    assert "per point, the sweep's own sigmas" in again.stdout
+
+
+def test_acquire_fits_the_coil_model_as_points_come_in(tmp_path):
+    out = tmp_path / "sweep.csv"
+    args = ["--simulated", "coil", "--settle-min", "0", "--max-points", "33"]
+    result = _invoke("acquire", out, *args, "--target", "Q=1%")
+    assert result.exit_code == 0, result.output
+    assert "coil with self-capacitance" in result.stdout
+    assert "C self (coil self-capacitance)" in result.stdout
+
+
+def test_fit_refuses_noise_column_without_one(tmp_path):
+    out = tmp_path / "s.csv"
+    f = [300e3 + 2e3 * i for i in range(40)]
+    out.write_text(
+        "f (Hz),gain\n" + "".join(f"{x:g},{1 / (1 + ((x - 340e3) / 9e3) ** 2):.6g}\n" for x in f)
+    )
+    result = _invoke("fit", out, "--sense-r", "47", "--noise", "column")
+    assert result.exit_code == 2
+    assert "no per-point standard deviation" in result.stderr
 
 
 def test_acquire_does_not_overwrite_a_sweep(tmp_path):

@@ -8,34 +8,38 @@ import sys
 import click
 
 from fitkit.cli.base import main, reports_errors
+from fitkit.cli.plan_cmd import TARGETS
+from fitkit.topologies import TOPOLOGIES
 from fitkit.units import format_quantity
-
-_TARGET_NAMES = {"R": "R", "L": "L", "C": "C", "f0": "f0", "Q": "Q", "bandwidth": "bandwidth"}
 
 
 def _target(text: str) -> tuple:
+    """NAME=PERCENT, NAME one of 'fitkit plan --target's names (docs/names.md)."""
     from fitkit.errors import SetupError
+    from fitkit.names import current_name
 
     name, sep, pct = text.partition("=")
     try:
         rel = float(pct.strip().rstrip("%")) / 100.0
     except ValueError:
         rel = -1.0
-    if not sep or name.strip() not in _TARGET_NAMES or not pct.strip().endswith("%") or rel <= 0:
+    name = current_name(name.strip(), "--target") if sep else name
+    if not sep or name not in TARGETS or not pct.strip().endswith("%") or rel <= 0:
         raise SetupError(
             f"cannot read the target {text!r}",
-            remedy="write NAME=PERCENT with NAME one of "
-            + ", ".join(_TARGET_NAMES)
-            + ", e.g. Q=0.5%",
+            remedy="write NAME=PERCENT with NAME one of " + ", ".join(TARGETS) + ", e.g. Q=0.5%",
         )
-    return _TARGET_NAMES[name.strip()], rel
+    return name, rel
 
 
 def _bench(opts: dict):
     from fitkit.setups import Setup
     from fitkit.units import parse_quantity
 
-    fields = {"source_ohm": parse_quantity(opts["source_r"], "ohm", what="source resistance")}
+    fields = {
+        "source_ohm": parse_quantity(opts["source_r"], "ohm", what="source resistance"),
+        "relative": opts["relative"],
+    }
     if opts["sense_r"]:
         fields["sense_ohm"] = parse_quantity(opts["sense_r"], "ohm", what="sense resistor")
     if opts["feed_r"]:
@@ -46,13 +50,11 @@ def _bench(opts: dict):
 
 
 def _progress(target: str):
-    from fitkit.result import QUANTITIES
-
     def show(points: int, fit) -> None:
         q = fit[target]
         parts = [f"{points:4d} points", f"f0 {_brief(fit['f0'])}"]
         if target != "f0":
-            parts.append(f"{QUANTITIES[target][1].split(' (')[0]} {_brief(q)}")
+            parts.append(f"{target} {_brief(q)}")
         parts.append(f"({q.stderr / abs(q.value):.2%})")
         click.echo("  " + "  ".join(parts), err=True)
 
@@ -74,7 +76,7 @@ def _progress(target: str):
 )
 @click.option(
     "--simulated",
-    type=click.Choice(["series", "tank"]),
+    type=click.Choice(["series", "tank", "coil"]),
     help="Take the sweep from a simulated bench on this computer instead "
     "(no instruments needed; see 'fitkit simbench').",
 )
@@ -99,18 +101,25 @@ def _progress(target: str):
 )
 @click.option("--probe-c", help="Probe/input capacitance across the output, e.g. 15p.")
 @click.option(
+    "--relative",
+    is_flag=True,
+    help="The ratio's scale is not calibrated (only its shape counts). A relative "
+    "divider sweep needs no --sense-r and fixes only f0 and the loaded Q.",
+)
+@click.option(
     "--model",
-    type=click.Choice(["series", "tank"]),
-    default="series",
-    show_default=True,
-    help="Circuit model fitted as points come in.",
+    type=click.Choice([*TOPOLOGIES, "auto"]),
+    metavar="MODEL",
+    help="Circuit model fitted as points come in, as for 'fitkit fit': series, tank, "
+    "coil, each also with -sqrtf, or auto [default: series; with --simulated, the "
+    "simulated circuit's].",
 )
 @click.option(
     "--target",
-    default="Q=0.5%",
-    show_default=True,
     help="Stop when this value's standard uncertainty is reached, NAME=PERCENT "
-    "(NAME: R, L, C, f0, Q, bandwidth).",
+    "(NAME as for 'fitkit plan --target': R, L, C, f0, Q, Q_loaded, bandwidth, "
+    "loaded_bandwidth; R_dynamic, C_self, f_self for their models) "
+    "[default: Q=0.5%, Q_loaded=0.5% for a relative divider sweep].",
 )
 @click.option(
     "--max-points",
@@ -175,6 +184,7 @@ def acquire_command(sweep_file, **opts):
     The generator output is on only during the sweep: it is switched off at the end, on
     Ctrl-C and on any error. Read docs/safety.md before connecting mains or valve sets.
     """
+    import dataclasses
     from pathlib import Path
 
     from fitkit.bench_file import DEFAULT_NAME, parse_amplitude
@@ -195,7 +205,6 @@ def acquire_command(sweep_file, **opts):
         refuse_overwrite(out, "sweep", opts["force"])
     elif not out.is_file():
         raise SetupError("there is no sweep to continue", remedy="drop --resume", path=out)
-    target, target_rel = _target(opts["target"])
     vpp = 2 * 2**0.5  # volts peak-to-peak per volt RMS of a sine
     model, span = None, opts["span"]
     if opts["simulated"]:
@@ -206,7 +215,11 @@ def acquire_command(sweep_file, **opts):
                 remedy="drop " + ", ".join("--" + o.replace("_", "-") for o in given),
             )
         model = scenario_model(opts["simulated"])
-        setup, topology = model.setup, model.topology
+        setup = model.setup
+        if opts["relative"]:  # the fit is told no scale (and on a divider, no fixture)
+            sense = None if setup.bench == "divider" else setup.sense_ohm
+            setup = dataclasses.replace(setup, relative=True, sense_ohm=sense)
+        topology = opts["model"] or model.topology
         span = span or "{:g}:{:g}".format(*SCENARIOS[opts["simulated"]][2])
     else:
         if not (opts["generator_address"] and opts["digitiser_address"]):
@@ -214,7 +227,9 @@ def acquire_command(sweep_file, **opts):
                 "no instruments given",
                 remedy="give --generator and --digitiser addresses, or try --simulated series",
             )
-        setup, topology = _bench(opts), opts["model"]
+        setup, topology = _bench(opts), opts["model"] or "series"
+    default_target = "Q_loaded=0.5%" if setup.relative and setup.bench == "divider" else "Q=0.5%"
+    target, target_rel = _target(opts["target"] or default_target)
     if not span or ":" not in span:
         raise SetupError("no span given", remedy="give --span START:STOP, e.g. 100k:1M")
     start, stop = (parse_quantity(x, "Hz", what="span") for x in span.split(":", 1))
@@ -234,7 +249,7 @@ def acquire_command(sweep_file, **opts):
         settle_periods=opts["settle_periods"],
         settle_min_s=parse_quantity(opts["settle_min"], "s", what="settling time"),
     )
-    request.check()
+    request.check(setup)
     write_setup_file(out.parent, setup, force=opts["force"])
     bench = SimulatedBench(model) if model else None
     with bench if bench else contextlib.nullcontext():

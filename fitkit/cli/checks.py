@@ -17,8 +17,9 @@ from fitkit.errors import FitkitError
 from fitkit.noise import parse_noise
 from fitkit.sweep import Sweep
 
-#: A stand-in sweep with phase, so that every accepted form of --noise can be checked.
-_PROBE = Sweep([1.0, 2.0], [1.0 + 0.0j, 1.0 + 0.0j], "ratio", source="--noise")
+#: A stand-in sweep with phase and per-point sigmas, so that every accepted form of
+#: --noise can be checked.
+_PROBE = Sweep([1.0, 2.0], [1.0 + 0.0j, 1.0 + 0.0j], "ratio", source="--noise", sigma=[1e-3, 1e-3])
 
 
 def _bad(exc: FitkitError, ctx, param) -> click.BadParameter:

@@ -112,9 +112,11 @@ def overrides_from_options(opts: dict) -> dict:
 @click.option(
     "--noise",
     callback=checks.noise,
-    help="Noise model: auto [default: even or in proportion to the reading, as the data "
-    "say; level estimated], additive, relative, or a stated level: '0.05dB', "
-    "'0.05dB,0.3deg', '1%' or an additive '2e-3'.",
+    help="Noise model: auto [default: each point's own sigma when the file has a sigma "
+    "column, else even or in proportion to the reading, as the data say, level "
+    "estimated], column (the sigma column, required), estimate (ignore a sigma column), "
+    "additive, relative, or a stated level: '0.05dB', '0.05dB,0.3deg', '1%' or an "
+    "additive '2e-3'.",
 )
 @model_option
 @click.option("--keep-outliers", is_flag=True, help="Do not refit without outlying points.")

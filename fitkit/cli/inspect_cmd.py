@@ -6,6 +6,7 @@ import click
 
 from fitkit.cli.base import main, reports_errors
 from fitkit.cli.read_options import columns_from_options, read_options
+from fitkit.noise import point_noise
 from fitkit.readers import inspect_sweep
 from fitkit.readers.tidy import DUPLICATES
 from fitkit.units import format_quantity
@@ -47,6 +48,8 @@ def describe_reading(reading) -> list[str]:
         f"range:    {format_quantity(sweep.freq_hz[0], 'Hz')} to "
         f"{format_quantity(sweep.freq_hz[-1], 'Hz')}",
     ]
+    if sweep.sigma is not None:  # how the fit will weight it by default
+        out.append(f"noise:    {point_noise(sweep).describe(sweep.kind)}")
     out.append("notes:" if sweep.notes else "notes:    none")
     out += [f"  - {note}" for note in sweep.notes]
     out.append(

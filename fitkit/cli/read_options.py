@@ -42,8 +42,9 @@ def read_options(func):
         multiple=True,
         metavar="ROLE=COLUMN[:UNIT]",
         callback=_check_column,
-        help="Which column gives a role (freq, mag, phase, real, imag), by header name or "
-        "position from 1, with an optional unit; ':UNIT' alone sets only the unit. "
+        help="Which column gives a role (freq, mag, phase, real, imag, sigma: each point's "
+        "standard deviation), by header name or position from 1, with an optional unit; "
+        "':UNIT' alone sets only the unit. "
         "Repeat for each role, e.g. --column freq=1:kHz --column mag=Gain:dB.",
     )(func)
 

@@ -13,7 +13,7 @@ from fitkit.cli.base import main, reports_errors
 @main.command("simbench")
 @click.option(
     "--circuit",
-    type=click.Choice(["series", "tank"]),
+    type=click.Choice(["series", "tank", "coil"]),
     default="series",
     show_default=True,
     help="The circuit on the simulated bench.",

@@ -3,7 +3,8 @@
 A generator of EMF ``E`` behind its source resistance drives the circuit through a bench
 arrangement of :mod:`fitkit.setups` (a divider with a sense resistor, or the circuit fed
 through a resistor). Channel 1 sees the generator's terminal, channel 2 the output; their
-ratio is the setup's response against the terminal. On top, as options: noise per sample,
+ratio is the setup's response against the terminal. The circuit is a series R-L-C, a
+tank, or a coil with self-capacitance in series with C. On top, as options: noise per sample,
 a slow drift of C, a delay of channel 2 (skew between the channels), a gain tilt of
 channel 2 in dB per decade, and an 8-bit converter that saturates at its range.
 """
@@ -16,10 +17,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from fitkit.circuits import series_rlc, tank
+from fitkit.circuits import coil_in_series, series_rlc, tank
 from fitkit.setups import Setup
 
-_CIRCUITS = {"series": series_rlc, "tank": tank}
 _ADC_LEVELS = 256  # an 8-bit converter across +-range
 
 
@@ -30,9 +30,11 @@ class BenchModel:
     Attributes
     ----------
     topology : str
-        ``"series"`` or ``"tank"``.
+        ``"series"``, ``"tank"`` or ``"coil"``.
     r_ohm, l_h, c_f : float
-        The circuit (for the tank, ``r_ohm`` is the coil's series loss).
+        The circuit (for the tank and the coil, ``r_ohm`` is the coil's series loss).
+    c_self_f : float
+        The coil's self-capacitance, across it (``"coil"`` only).
     setup : Setup
         The bench arrangement (``divider`` or ``across``, ratio against the terminal).
     noise_v : float
@@ -51,6 +53,7 @@ class BenchModel:
     r_ohm: float = 10.0
     l_h: float = 220e-6
     c_f: float = 1e-9
+    c_self_f: float = 0.0
     setup: Setup = field(default_factory=lambda: Setup("divider", "ratio", sense_ohm=47.0))
     noise_v: float = 10e-3
     drift_per_s: float = 0.0
@@ -66,7 +69,7 @@ class BenchModel:
         """Complex peak voltages on channel 1 (the terminal) and channel 2 (the output)."""
         f = np.array([freq_hz])
         drift = 1.0 + self.drift_per_s * (time.monotonic() - self.started)
-        z = _CIRCUITS[self.topology](f, self.r_ohm, self.l_h, self.c_f * drift)
+        z = self.impedance(f, self.c_f * drift)
         terminal = Setup(
             self.setup.bench,
             "ratio",
@@ -80,6 +83,13 @@ class BenchModel:
         skew = np.exp(-2j * math.pi * freq_hz * self.delay_s)
         tilt = 10.0 ** (self.tilt_db_per_decade * math.log10(freq_hz / 1e6) / 20.0)
         return v1, v1 * ratio * skew * tilt
+
+    def impedance(self, freq_hz: np.ndarray, c_f: float) -> np.ndarray:
+        """The circuit's impedance with its capacitor at ``c_f``."""
+        if self.topology == "coil":
+            return coil_in_series(freq_hz, self.r_ohm, self.l_h, c_f, self.c_self_f)
+        circuit = series_rlc if self.topology == "series" else tank
+        return circuit(freq_hz, self.r_ohm, self.l_h, c_f)
 
     def _input_impedance(self, z, f):
         w = 2.0 * math.pi * f
@@ -112,6 +122,12 @@ SCENARIOS = {
         "100 uH coil across 2.2 nF, fed through 10 kohm, the scope across the tank",
         {"topology": "tank", "r_ohm": 3.0, "l_h": 100e-6, "c_f": 2.2e-9, "feed_ohm": 10e3},
         (100e3, 1e6),
+    ),
+    "coil": (
+        "1 mH pile-wound coil (30 pF self-capacitance) in series with 470 pF, "
+        "47 ohm sense resistor",
+        {"topology": "coil", "r_ohm": 20.0, "l_h": 1e-3, "c_f": 470e-12, "c_self_f": 30e-12},
+        (100e3, 1.5e6),
     ),
 }
 

@@ -1,14 +1,20 @@
 """Where the next points inform the fit most: the Fisher information of the chosen model.
 
 The model is the one the fit uses, in the fit's own parameters ``theta = (ln f0, ln q,
-ln scale)`` of :mod:`fitkit.topologies`, seen through the bench's :class:`~fitkit.setups.
-Setup`. With complex readings of standard deviation ``sigma_i`` per real and imaginary
-part, the Fisher matrix is ``F = sum_i (Re J_i^T Re J_i + Im J_i^T Im J_i) / sigma_i^2``
+ln scale)`` of :mod:`fitkit.topologies` (and the ln of a coil's self-resonance), seen
+through the bench's :class:`~fitkit.setups.Setup`. An uncalibrated (relative) sweep adds
+the ln of its gain; where the bench leaves the scale open (a relative divider: only the
+shape counts) the gain stands in for it, the scale held. A loss growing as sqrt(f) is
+placed for as its plain circuit: near the resonance the two differ little.
+
+With complex readings of standard deviation ``sigma_i`` per real and imaginary part,
+the Fisher matrix is ``F = sum_i (Re J_i^T Re J_i + Im J_i^T Im J_i) / sigma_i^2``
 and no unbiased estimate of a value ``v(theta)`` beats ``var ln v >= g^T F^-1 g`` with
 ``g = d ln v / d theta`` (the Cramer-Rao bound; Kay, Fundamentals of Statistical Signal
 Processing: Estimation Theory, 1993, ch. 3, from memory). For a series circuit this is
 the bound :func:`fitkit.plan.cramer_rao` gives analytically (a test checks they agree);
-here the Jacobian is taken by central differences so the tank is served the same way.
+here the Jacobian is taken by central differences so the tank and the coil are served
+the same way.
 
 The next points are chosen greedily (a sequential c-optimal design): among candidate
 frequencies spread over the resonance in loaded bandwidths (:func:`fitkit.plan.
@@ -39,57 +45,91 @@ class InformationModel:
     Parameters
     ----------
     topology : str
-        ``"series"`` or ``"tank"``.
+        ``"series"``, ``"tank"`` or ``"coil"`` (a ``-sqrtf`` model: its plain circuit).
     setup : Setup
         The bench arrangement.
-    f0_hz, q, scale : float
-        The fit's internal values: resonance, the topology's Q (loaded Q for the series
-        circuit, the coil's Q for the tank) and its scale resistance (loop resistance
-        for the series circuit, dynamic resistance for the tank).
+    f0_hz, q : float
+        The fit's internal resonance and the topology's Q (loaded Q for the series
+        circuit and the coil, the coil's Q for the tank).
+    scale : float or None
+        The scale resistance (loop resistance for the series circuit and the coil,
+        dynamic resistance for the tank); None where the sweep leaves it open.
     target : str
         The value to pin down, a name the fit reports (``"Q"``, ``"L"``, ``"f0"``...).
+    extras : dict, optional
+        The topology's extra values (``{"f_self": ...}`` for the coil).
+    gain : float, optional
+        The gain of an uncalibrated sweep (then a parameter); None for a calibrated one.
     """
 
-    def __init__(self, topology: str, setup: Setup, f0_hz, q, scale, target: str) -> None:
-        self.topology = get_topology(topology)
+    def __init__(
+        self,
+        topology: str,
+        setup: Setup,
+        f0_hz,
+        q,
+        scale,
+        target: str,
+        *,
+        extras: dict | None = None,
+        gain: float | None = None,
+    ) -> None:
+        self.topology = get_topology(topology.removesuffix("-sqrtf"))
         self.setup = setup
-        self.theta = np.log([f0_hz, q, scale])
+        free = {"f0": f0_hz, "q": q}
+        if scale is not None:
+            free["scale"] = scale
+        free.update({e: (extras or {})[e] for e in self.topology.extras})
+        if gain is not None:
+            free["gain"] = abs(gain)
+        self.names = tuple(free)
+        self.held = {"scale": 1.0, "gain": 1.0}  # stand-ins for values not free
+        self.theta = np.log([float(v) for v in free.values()])
         self.target = target
         self.gradient = self._target_gradient()
 
     @classmethod
     def from_fit(cls, fit: CircuitFit, setup: Setup, target: str) -> InformationModel:
-        """The model at a fit's values."""
+        """The model at a fit's values (the gain of an uncalibrated sweep from its curve)."""
+        topology = get_topology(fit.topology.removesuffix("-sqrtf"))
+        if topology.family == "tank":
+            q, scale = fit["Q"].value, fit["R_dynamic"]
+            scale = scale.value if scale.determined else None
+        else:
+            q, r = fit["Q_loaded"].value, fit["R"]
+            scale = r.value + setup.external_ohm if r.determined else None
+        extras = {e: fit[e].value for e in topology.extras}
         f0 = fit["f0"].value
-        if fit.topology == "tank":
-            return cls("tank", setup, f0, fit["Q"].value, fit["R_dynamic"].value, target)
-        return cls(
-            "series",
-            setup,
-            f0,
-            fit["Q_loaded"].value,
-            fit["R"].value + setup.external_ohm,
-            target,
-        )
+        model = cls(topology.name, setup, f0, q, scale, target, extras=extras)
+        if setup.is_calibrated:
+            return model
+        freq_hz, _, fitted = fit.model_curve
+        unit = model.response(freq_hz)
+        gain = float(np.real(np.vdot(unit, fitted)) / np.real(np.vdot(unit, unit)))
+        return cls(topology.name, setup, f0, q, scale, target, extras=extras, gain=gain)
+
+    def _unpack(self, theta: np.ndarray) -> dict:
+        return {**self.held, **dict(zip(self.names, np.exp(theta)))}
 
     def _components(self, theta: np.ndarray) -> tuple:
-        f0, q, scale = np.exp(theta)
-        return f0, q, self.topology.components(self.setup, f0, q, scale, {})
+        v = self._unpack(theta)
+        extras = {e: v[e] for e in self.topology.extras}
+        return v, self.topology.components(self.setup, v["f0"], v["q"], v["scale"], extras)
 
     def _values(self, theta: np.ndarray) -> dict:
-        f0, q, comps = self._components(theta)
-        return {**comps, **self.topology.derived(self.setup, f0, q, comps)}
+        v, comps = self._components(theta)
+        return {**comps, **self.topology.derived(self.setup, v["f0"], v["q"], comps)}
 
     def response(self, freq_hz: np.ndarray, theta: np.ndarray | None = None) -> np.ndarray:
         """What the bench reads at these frequencies."""
         f = np.asarray(freq_hz, dtype=np.float64)
-        comps = self._components(self.theta if theta is None else theta)[2]
-        return self.setup.response(self.topology.impedance(f, comps, 1.0), f)
+        v, comps = self._components(self.theta if theta is None else theta)
+        return v["gain"] * self.setup.response(self.topology.impedance(f, comps, 1.0), f)
 
     def _central(self, func) -> list:
         """Central differences of ``func(theta)`` along each parameter."""
         out = []
-        for step in np.eye(3) * _STEP:
+        for step in np.eye(self.theta.size) * _STEP:
             out.append((func(self.theta + step) - func(self.theta - step)) / (2 * _STEP))
         return out
 

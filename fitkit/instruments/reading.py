@@ -18,11 +18,11 @@ up and the point is read again; a channel using under a third of its range goes
 down while the trace still fits in the smaller range. A point still clipped on the
 largest range is refused with a message.
 
-Equal noise: the fit weights every point alike (it takes no per-point weights), which
-is honest only when the points are about equally noisy. Where the circuit loads the
-generator (a series circuit at resonance) the input channel drops and a point's ratio is
-noisier, so once a noise goal is set (the session sets the median of the coarse pass),
-a point noisier than 1.1 times the goal is read again with a record longer by
+Equal noise: where the circuit loads the generator (a series circuit at resonance) the
+input channel drops and a point's ratio is noisier. The fit weights each point by its
+own sigma, so this costs precision, not honesty; to spend the time where the noise is,
+once a noise goal is set (the session sets the median of the coarse pass), a point
+noisier than 1.1 times the goal is read again with a record longer by
 ``(sigma / goal)^2`` (noise falls as one over the square root of the samples), at most
 16 times the default length.
 """

@@ -34,6 +34,7 @@ from fitkit.instruments.sweep_file import read_points, write_points
 from fitkit.result import CircuitFit
 from fitkit.setups import Setup
 from fitkit.sweep import Sweep
+from fitkit.topologies import get_topology
 
 _GOLDEN = (math.sqrt(5.0) - 1.0) / 2.0  # shifts the candidate grid between rounds
 _MIN_EXTRA = 8  # points placed by information before the target may stop the sweep
@@ -52,9 +53,12 @@ class SweepRequest:
     ceiling_vpp : float
         The largest amplitude allowed; above it the sweep is refused.
     topology : str
-        The model fitted as points come in, ``"series"`` or ``"tank"``.
+        The model fitted as points come in: any :func:`fitkit.fitting.fit_sweep` takes
+        (``"series"``, ``"tank"``, ``"coil"``, one of them with ``-sqrtf``, or
+        ``"auto"``).
     target : str
-        The value to pin down, as the fit names it (``"Q"``, ``"L"``, ``"f0"``...).
+        The value to pin down, as the fit names it (``"Q"``, ``"L"``, ``"f0"``,
+        ``"Q_loaded"``...).
     target_rel : float
         Its wanted relative standard uncertainty (0.005 for 0.5%).
     coarse_points : int
@@ -79,18 +83,42 @@ class SweepRequest:
     time_limit_s: float = 600.0
     batch: int = 4
 
-    def check(self) -> None:
-        """Refuse an unsafe or impossible request before anything is connected."""
+    def check(self, setup: Setup | None = None) -> None:
+        """Refuse an unsafe or impossible request before anything is connected (with
+        the ``setup``, also a target that its sweep cannot determine)."""
         check_amplitude(self.amplitude_vpp, self.ceiling_vpp)
         if not (0 < self.start_hz < self.stop_hz):
             raise SetupError(
                 f"the span {self.start_hz:g} Hz to {self.stop_hz:g} Hz is not a span",
                 remedy="give --span START:STOP with START below STOP, e.g. 100k:1M",
             )
-        if self.topology not in ("series", "tank"):
+        if self.topology != "auto":
+            get_topology(self.topology)  # refuses an unknown model, naming the known ones
+        family = _ONLY_IN.get(self.target)
+        if family and (self.topology == "auto" or get_topology(self.topology).family != family):
             raise SetupError(
-                f"a sweep can be taken for a series circuit or a tank, not {self.topology!r}",
-                remedy="choose --model series or --model tank",
+                f"the {self.topology} model has no {self.target} to aim at",
+                remedy=f"choose --model {family}, or aim at a value every model has "
+                "(f0, Q, L, C...)",
+            )
+        if setup is not None and _shape_only(setup):
+            self._check_shape_only()
+
+    def _check_shape_only(self) -> None:
+        """A relative divider sweep: only the shape's values, and no coil model."""
+        if self.topology.startswith("coil"):
+            raise SetupError(
+                "a relative divider sweep cannot tell the fixture's resistance from the "
+                "coil's loss, so the coil model does not fit it",
+                remedy="calibrate the ratio (drop --relative and give --sense-r), or fit the "
+                "series model (--model series)",
+            )
+        if self.target not in SHAPE_TARGETS:
+            raise SetupError(
+                f"a relative divider sweep fixes only the resonance and the loaded Q, "
+                f"not {self.target}: nothing ties its scale to ohms",
+                remedy="aim at the loaded Q or f0 (--target Q_loaded=0.5%), or calibrate the "
+                "ratio (drop --relative and give --sense-r)",
             )
         if not (self.coarse_points >= 6 and self.max_points > self.coarse_points):
             raise SetupError(
@@ -98,6 +126,17 @@ class SweepRequest:
                 f"{self.coarse_points}",
                 remedy="allow more points (--max-points) than the coarse pass takes",
             )
+
+
+#: targets only one family of models has
+_ONLY_IN = {"R_dynamic": "tank", "C_self": "coil", "f_self": "coil"}
+#: what a relative divider sweep determines (its scale is open: see fitkit.setups)
+SHAPE_TARGETS = ("f0", "Q_loaded", "loaded_bandwidth")
+
+
+def _shape_only(setup: Setup) -> bool:
+    """A relative divider sweep: ``H = gain / Z_loop`` leaves the loop's scale open."""
+    return setup.relative and setup.bench == "divider"
 
 
 @dataclass
@@ -154,7 +193,7 @@ def take_sweep(
     InstrumentError
         An instrument failed; the points so far are saved and the output is off.
     """
-    request.check()
+    request.check(setup)
     settings = settings or ReadSettings()
     profile.require_mode(settings.mode)
     points = read_points(out_path)[0] if resume else []
@@ -237,12 +276,16 @@ def _sweep(request, setup, reader, result, metadata, progress) -> None:
 
 
 def _fit(points, setup: Setup, topology: str, path) -> CircuitFit:
+    """The fit of the points so far, each weighted by its own sigma when all have one
+    (as the fit of the written file weights them)."""
     rows = sorted(points, key=lambda pt: pt.freq_hz)
+    sigma = np.array([pt.sigma for pt in rows])
     sweep = Sweep(
         np.array([pt.freq_hz for pt in rows]),
         np.array([pt.ratio for pt in rows]),
         "ratio",
         source=str(path),
+        sigma=sigma if np.all(np.isfinite(sigma)) else None,
     )
     try:
         return fit_sweep(sweep, setup, topology=topology)

@@ -3,8 +3,8 @@
 The sweep is a comma-separated table, ``Frequency (Hz), Re(H), Im(H)`` (the output
 channel over the input channel) and, when the points were read by sine fits,
 ``sigma (per part)``: each point's own standard deviation of the real and of the
-imaginary part. The fit does not take per-point weights yet; the column is kept for it
-and for the record (a reader ignores a column it does not know). Lines above the header,
+imaginary part (absolute, a ratio like H). The readers take it as the sweep's per-point
+sigma, and the fit weights each point by it. Lines above the header,
 ``# key: value``, hold the instrument identities and settings; readers keep them as
 the sweep's metadata. ``# state: incomplete`` marks a sweep that was stopped.
 
@@ -107,11 +107,13 @@ def _setup_text(setup: Setup) -> str:
         f'arrangement = "{setup.bench}"',
         f'source_resistance = "{setup.source_ohm:.10g}"',
     ]
-    if setup.bench == "divider":
-        lines.append(f'sense_resistor = "{setup.sense_ohm:.10g}"')
-    else:
+    if setup.bench == "across":
         lines.append(f'feed_resistor = "{setup.feed_ohm:.10g}"')
+    elif setup.sense_ohm is not None:
+        lines.append(f'sense_resistor = "{setup.sense_ohm:.10g}"')
     if setup.probe_f:
         lines.append(f'probe_capacitance = "{setup.probe_f:.10g}"')
     lines.append(f'ratio_reference = "{setup.reference}"')
+    if setup.relative:
+        lines.append("relative = true")
     return "\n".join(lines) + "\n"

@@ -36,7 +36,9 @@ def read_sweep(
     columns : dict, optional
         The user's word where the header is unclear or wrong. Keys are roles:
         ``"freq"``, ``"mag"`` (linear, dB or volts), ``"phase"``, ``"real"``,
-        ``"imag"``; each value names a column and optionally its unit, as
+        ``"imag"``, ``"sigma"`` (each point's standard deviation: in the readings'
+        unit, absolute, or in % or dB, relative; see :class:`fitkit.sweep.Sweep`); each
+        value names a column and optionally its unit, as
 
         - a header name, ``"Gain"``, or a 1-based position, ``2`` or ``"2"``;
         - ``"NAME:UNIT"``, e.g. ``"f:kHz"`` or ``"3:deg"``; ``":kHz"`` keeps the detected
@@ -46,7 +48,8 @@ def read_sweep(
         The key ``"kind"`` says what the values measure: ``"ratio"``, ``"volts"``,
         ``"impedance"``, ``"s11"`` or ``"s21"``. Roles left out are detected from the
         header. Units: Hz, kHz, MHz, GHz, rad/s, krad/s, Mrad/s; deg, rad; ratio, dB;
-        V, Vrms, mV, uV, Vpp, mVpp, Vpk, dBV; ohm, kohm, Mohm. Volts are stored as RMS.
+        V, Vrms, mV, uV, Vpp, mVpp, Vpk, dBV; ohm, kohm, Mohm; % (sigma only). Volts
+        are stored as RMS.
         This is the ``[columns]`` table of a setup file, passed as it stands.
     parameter : str, optional
         For Touchstone: ``"s21"`` (the default for two-port files) or ``"s11"``. When

@@ -1,7 +1,8 @@
 """Which column is which: header words and units to roles, and the user's overrides.
 
 A role is what a column holds: ``freq``, ``mag`` (magnitude: linear, dB or volts),
-``phase``, ``real`` or ``imag`` (parts of a complex value). A header such as
+``phase``, ``real`` or ``imag`` (parts of a complex value), or ``sigma`` (each point's own
+standard deviation). A header such as
 ``"Gain (dB)"``, ``"f/kHz"``, ``"phase_deg"``, ``"Re(S21)"`` or ``"|Z| [kohm]"`` names
 both. The measured quantity (ratio, volts, impedance, S11, S21) follows from the words
 (``Z``, ``S21``...) and the unit (V, ohm).
@@ -20,8 +21,9 @@ from fitkit.errors import InputError
 from fitkit.readers.units import Unit, known_units, lookup_unit
 from fitkit.sweep import KINDS
 
-ROLES = ("freq", "mag", "phase", "real", "imag")
+ROLES = ("freq", "mag", "phase", "real", "imag", "sigma")
 _ROLE_DIMENSIONS = {
+    "sigma": ("level", "volt", "ohm", "share"),
     "freq": ("freq",),
     "phase": ("phase",),
     "mag": ("level", "volt", "ohm"),
@@ -29,6 +31,7 @@ _ROLE_DIMENSIONS = {
     "imag": ("level", "volt", "ohm"),
 }
 _WORDS = {
+    "sigma": {"sigma", "std", "stdev", "stddev", "sd", "uncertainty"},
     "freq": {"f", "freq", "frequency", "frequenz", "hz", "omega", "w", "fr"},
     "phase": {"phase", "phi", "angle", "ang", "arg", "theta", "ph", "phs"},
     "real": {"re", "real", "resistance"},
@@ -152,6 +155,8 @@ def _tag(text: str, words: frozenset) -> str | None:
 def guess_role(col: Column) -> str | None:
     """The role a column's words and unit suggest, or None when it says nothing known."""
     dim = col.unit.dimension if col.unit else None
+    if col.words & _WORDS["sigma"]:
+        return "sigma"
     if dim == "freq" or (col.words & _WORDS["freq"] and dim is None):
         return "freq"
     if dim == "phase" or col.words & _WORDS["phase"]:

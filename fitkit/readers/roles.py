@@ -1,9 +1,16 @@
 """From a described header to a reading plan: which column gives each role, in what unit,
 and what the sweep measured; then the numbers of those columns to SI values.
+
+A per-point uncertainty column (role ``sigma``: header words sigma, std, stdev, stddev,
+sd, uncertainty) is read in its own unit: ``%`` or dB make it relative to the reading;
+a unit of the measured values' dimension (V, mV, ohm, ratio...) or none at all makes it
+absolute, in the measured values' unit when it states none (a dB reading's sigma
+without a unit is then in dB, so relative).
 """
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -23,7 +30,9 @@ _ROLE_WORDS = {
     "phase": "phase",
     "real": "real part",
     "imag": "imaginary part",
+    "sigma": "per-point standard deviation",
 }
+_NEPERS_PER_DB = math.log(10.0) / 20.0
 
 
 @dataclass
@@ -34,7 +43,8 @@ class Plan:
     ----------
     roles : dict
         Role name to ``(Column, Unit)``; holds ``freq`` and either ``mag`` (with an
-        optional ``phase``) or both ``real`` and ``imag``.
+        optional ``phase``) or both ``real`` and ``imag``; ``sigma`` when the table
+        gives each point's standard deviation.
     kind : str
         One of :data:`fitkit.sweep.KINDS`.
     in_db : bool
@@ -79,6 +89,16 @@ class Plan:
         out.imag *= mag
         return freq, out
 
+    def sigma(self, cells: dict[str, np.ndarray]) -> tuple:
+        """Each point's standard deviation and whether it is relative to the reading
+        (see :class:`fitkit.sweep.Sweep`); ``(None, False)`` without a sigma column."""
+        if "sigma" not in self.roles:
+            return None, False
+        unit = self.roles["sigma"][1]
+        if unit.in_db:
+            return cells["sigma"] * _NEPERS_PER_DB, True
+        return cells["sigma"] * unit.scale, unit.dimension == "share"
+
 
 def plan_columns(
     header: list[Column],
@@ -105,12 +125,21 @@ def plan_columns(
         chosen["freq"] = _pick_freq(free, header, path, line)
         free.remove(chosen["freq"])
     _pick_measured(chosen, free, kind_asked, notes, path, line)
+    if "sigma" not in chosen:
+        found = [c for c in free if guess_role(c) == "sigma" and c not in chosen.values()]
+        if len(found) > 1:
+            _competing("sigma", found, path, line)
+        if found:
+            chosen["sigma"] = found[0]
     roles = {}
     for role, col in chosen.items():
         ov = overrides.get(role)
         unit = ov.unit if ov is not None and ov.unit is not None else col.unit
-        roles[role] = (col, _unit_for(role, col, unit, notes, path, line))
+        if role != "sigma":
+            roles[role] = (col, _unit_for(role, col, unit, notes, path, line))
     kind, in_db = _kind(roles, chosen, kind_asked, notes, path, line)
+    if "sigma" in chosen:
+        roles["sigma"] = _sigma_unit(chosen["sigma"], overrides.get("sigma"), roles, notes, path)
     unused = [c.name for c in header if c not in chosen.values() and c.name]
     if unused:
         notes.append(f"ignored column(s) {', '.join(repr(n) for n in unused)}")
@@ -260,6 +289,29 @@ def _unit_for(role: str, col: Column, unit: Unit | None, notes, path, line) -> U
             column=col.position,
         )
     return unit
+
+
+def _sigma_unit(col: Column, ov: Override | None, roles: dict, notes, path) -> tuple:
+    """The sigma column's unit: its own, else the measured values' (see the module notes)."""
+    measured = roles["mag" if "mag" in roles else "real"][1]
+    unit = ov.unit if ov is not None and ov.unit is not None else col.unit
+    if unit is None:
+        unit = measured
+        how = "relative" if unit.in_db else "absolute"
+        notes.append(
+            f"column {col.name!r} states no unit; read it as each point's standard "
+            f"deviation in {unit.text} ({how}), the measured values' unit"
+        )
+    if not (unit.in_db or unit.dimension in ("share", measured.dimension)):
+        raise InputError(
+            f"column {col.name!r} is in {unit.text}, which does not fit readings in "
+            f"{measured.text}",
+            remedy="give each point's standard deviation in the readings' unit, in % or "
+            "in dB (of the reading), e.g. --column sigma=NAME:%",
+            path=path,
+            column=col.name or col.position,
+        )
+    return col, unit
 
 
 def _kind(roles, chosen, kind_asked, notes, path, line) -> tuple[str, bool]:

@@ -113,8 +113,10 @@ def read_table(
     names = {role: col.name or col.position for role, (col, _) in plan.roles.items()}
     refuse_infinite(cells, line_numbers, names, path=path)
     freq, values = plan.values(cells)
+    sigma, sigma_relative = plan.sigma(cells)
     del cells  # frees the parser's block before the clean-up makes its own arrays
     freq_col = plan.roles["freq"][0]
+    sigma_col = plan.roles["sigma"][0] if sigma is not None else None
     sweep = tidy_sweep(
         freq,
         values,
@@ -127,6 +129,9 @@ def read_table(
         duplicates=duplicates,
         freq_column=freq_col.name or freq_col.position,
         sha256=file_sha256(path),
+        sigma=sigma,
+        sigma_relative=sigma_relative,
+        sigma_column=sigma_col and (sigma_col.name or sigma_col.position),
     )
     used = {col.position: (role, unit.text) for role, (col, unit) in plan.roles.items()}
     infos = [ColumnInfo(c.position, c.name, *used.get(c.position, (None, None))) for c in header]

@@ -35,6 +35,9 @@ def tidy_sweep(
     duplicates: str = "average",
     freq_column: str | int | None = None,
     sha256: str | None = None,
+    sigma: np.ndarray | None = None,
+    sigma_relative: bool = False,
+    sigma_column: str | int | None = None,
 ) -> Sweep:
     """Make a :class:`Sweep` from parsed columns, cleaning up and saying what was done.
 
@@ -49,6 +52,14 @@ def tidy_sweep(
         What to do with a frequency written more than once.
     sha256 : str, optional
         The file's SHA-256, carried on the Sweep.
+    sigma : ndarray, optional
+        Each row's own standard deviation (see :class:`fitkit.sweep.Sweep`); it follows
+        its row through the clean-up, and repeated frequencies average to
+        ``sqrt(sum sigma^2) / n``.
+    sigma_relative : bool
+        ``sigma`` is relative to the reading.
+    sigma_column : str or int, optional
+        The sigma column's name or position, for messages.
 
     Raises
     ------
@@ -68,6 +79,9 @@ def tidy_sweep(
         if inner.size:
             notes.append(f"dropped {inner.size} blank/NaN row(s) ({line_list(lines[inner])})")
         freq_hz, values, lines = freq_hz[~empty], values[~empty], lines[~empty]
+        sigma = None if sigma is None else sigma[~empty]
+    if sigma is not None:
+        _refuse_bad_sigma(sigma, lines, path, sigma_column)
     bad = ~np.isfinite(freq_hz) | ~np.isfinite(values)
     if bad.any():
         raise InputError(
@@ -93,11 +107,14 @@ def tidy_sweep(
             notes.append(f"sorted {int((steps < 0).sum())} out-of-order row(s)")
         order = np.argsort(freq_hz, kind="stable")
         freq_hz, values = freq_hz[order], values[order]
+        sigma = None if sigma is None else sigma[order]
         lines = lines[order] if isinstance(lines, np.ndarray) else order + lines
         steps = np.diff(freq_hz)
     repeated = steps == 0
     if repeated.any():
-        freq_hz, values = _merge(freq_hz, values, lines, repeated, duplicates, path, notes)
+        freq_hz, values, sigma = _merge(
+            freq_hz, values, sigma, lines, repeated, duplicates, path, notes
+        )
     return Sweep(
         freq_hz,
         values,
@@ -107,7 +124,24 @@ def tidy_sweep(
         metadata=dict(metadata),
         notes=notes,
         sha256=sha256,
+        sigma=sigma,
+        sigma_relative=sigma_relative,
     )
+
+
+def _refuse_bad_sigma(sigma: np.ndarray, lines, path: Path, column) -> None:
+    """A row with a reading must give its standard deviation, finite and above zero."""
+    bad = ~(np.isfinite(sigma) & (sigma > 0))
+    if bad.any():
+        row = int(np.argmax(bad))
+        raise InputError(
+            f"the per-point standard deviation {sigma[row]:g} is not a finite number above zero",
+            remedy="repair the cell (every row with a reading needs its standard deviation), "
+            "or delete the column to fit without per-point weights",
+            path=path,
+            line=_line(lines, row),
+            column=column,
+        )
 
 
 def refuse_infinite(
@@ -192,7 +226,7 @@ def _line(lines: np.ndarray | int, row: int) -> int:
     return int(lines[row]) if isinstance(lines, np.ndarray) else lines + row
 
 
-def _merge(freq_hz, values, lines, repeated, duplicates, path, notes):
+def _merge(freq_hz, values, sigma, lines, repeated, duplicates, path, notes):
     if duplicates not in DUPLICATES:
         raise InputError(
             f"unknown way {duplicates!r} to treat repeated frequencies",
@@ -216,4 +250,6 @@ def _merge(freq_hz, values, lines, repeated, duplicates, path, notes):
         f"merged {int((counts > 1).sum())} repeated frequencies (averaged; "
         f"{line_list(lines[extra])})"
     )
-    return unique, sums / counts
+    if sigma is not None:  # the standard deviation of a mean of independent readings
+        sigma = np.sqrt(np.add.reduceat(sigma**2, start)) / counts
+    return unique, sums / counts, sigma

@@ -1,7 +1,8 @@
 """Units a sweep column may be written in, and what each means in SI.
 
 Every unit belongs to one dimension: frequency (to Hz), phase (to rad), a dimensionless
-level (linear or dB), volts (to V RMS, linear or dBV) or ohm. Lookup is exact first, then
+level (linear or dB), volts (to V RMS, linear or dBV), ohm, or a share of the reading
+(``%``, for a per-point uncertainty column). Lookup is exact first, then
 case-insensitive for spellings that cannot be confused (``MHz`` vs ``mHz`` is read as MHz:
 no tuned circuit is swept in millihertz).
 """
@@ -24,7 +25,8 @@ class Unit:
     text : str
         The spelling shown to the user.
     dimension : str
-        ``"freq"``, ``"phase"``, ``"level"`` (dimensionless), ``"volt"`` or ``"ohm"``.
+        ``"freq"``, ``"phase"``, ``"level"`` (dimensionless), ``"volt"``, ``"ohm"`` or
+        ``"share"`` (a fraction of the reading).
     scale : float
         Multiplies a linear value into SI (Hz, rad, V RMS, ohm); for dB units it scales
         the linear value after ``10 ** (x / 20)``.
@@ -65,6 +67,7 @@ def _table() -> dict[str, Unit]:
         Unit("kohm", "ohm", 1e3),
         Unit("Mohm", "ohm", 1e6),
         Unit("mohm", "ohm", 1e-3),
+        Unit("%", "share", 1e-2),
     ]
     table = {u.text: u for u in units}
     aliases = {
