@@ -118,7 +118,8 @@ def _band_warnings(problem, q: dict, used, values: dict) -> list:
         )
     inside = points_in_band(problem, q, used)
     if inside is not None and inside < MIN_POINTS_IN_BAND:
-        f0, half = q["f0"].value, q["f0"].value / (2.0 * q["Q_loaded"].value)
+        f0 = resonance_seen(q)
+        half = f0 / (2.0 * q["Q_loaded"].value)
         out.append(
             (
                 f"only {inside} points lie within the half-power band "
@@ -135,8 +136,21 @@ def points_in_band(problem, q: dict, used) -> int | None:
     """How many points kept lie within the loaded half-power band (None: not known)."""
     if not q["Q_loaded"].determined:
         return None
-    half = q["f0"].value / (2.0 * q["Q_loaded"].value)
-    return int(np.sum(np.abs(problem.f[used] - q["f0"].value) <= half))
+    f0 = resonance_seen(q)
+    half = f0 / (2.0 * q["Q_loaded"].value)
+    return int(np.sum(np.abs(problem.f[used] - f0) <= half))
+
+
+def resonance_seen(q: dict) -> float:
+    """Where the sweep shows the resonance: f0, except for a coil whose self-capacitance
+    adds to C, ``1 / (2 pi sqrt(L (C + C_self)))`` (the series resonance of the coil's
+    reactance ``w L / (1 - w^2 L C_self)`` with C, solved for zero; derived, loss
+    neglected), so the band is counted where the points are."""
+    f0 = q["f0"].value
+    c_self = q.get("C_self")
+    if c_self is None or not c_self.determined or not q["C"].determined:
+        return f0
+    return f0 * math.sqrt(q["C"].value / (q["C"].value + c_self.value))
 
 
 def _adequacy(problem, result, noise, used) -> list:

@@ -9,6 +9,7 @@ import numpy as np
 import pytest
 
 from fitkit.circuits import TWO_PI, coil_in_series, series_rlc, tank
+from fitkit.fit_warnings import resonance_seen
 from fitkit.fitting import fit_sweep
 from fitkit.setups import Setup
 from fitkit.sweep import Sweep
@@ -193,3 +194,18 @@ def test_screened_choice_agrees_with_fitting_both(above, seed):
         pytest.skip("too close to the evidence threshold to call")
     chosen = fit_sweep(sweep, setup, topology="auto", noise="additive")
     assert chosen.topology == ("coil" if coil < series - 10.0 else "series"), chosen.choice
+
+
+def test_band_counted_where_a_coil_resonates():
+    """A coil's self-capacitance adds to C: the circuit resonates at 1/(2 pi sqrt(L (C +
+    Cself))), below f0 of L and C. A sweep centred there is not short of points in its
+    band (checked against the minimum of |Z| found on a dense grid by numpy)."""
+    setup = SETUPS["impedance"]
+    l_h, c_f, c_self = 100e-6, 1e-9, 50e-12
+    dense = np.linspace(450e3, 520e3, 70001)
+    seen = dense[np.argmin(np.abs(coil_in_series(dense, 5.0, l_h, c_f, c_self)))]
+    f = np.linspace(seen * 0.97, seen * 1.03, 41)
+    fit = fit_sweep(_noisy(setup, coil_in_series(f, 5.0, l_h, c_f, c_self), f, 71), setup,
+                    topology="coil")  # fmt: skip
+    assert resonance_seen(fit.quantities) == pytest.approx(seen, rel=2e-4)
+    assert not any("points lie within" in w for w in fit.stats.warnings), fit.stats.warnings
