@@ -45,10 +45,7 @@ def model_and_jacobian(problem, values: dict, names: list, idx) -> tuple:
     complex (a reading floor makes it real). A parameter held at one of its bounds
     (the model clips it there) gets a zero column."""
     topology, setup = problem.topology, problem.setup
-    clipped = {
-        k: min(max(v, problem.bounds[k][0]), problem.bounds[k][1]) if k in problem.bounds else v
-        for k, v in values.items()
-    }
+    clipped = problem.clipped(values)
     f, coefficients = problem.at(idx)
     f0, _, _, extras, elements = circuit_state(problem, clipped)
     factor = topology.loss_factor(f, f0, extras)

@@ -18,7 +18,7 @@ from scipy.optimize import leastsq
 
 from fitkit.errors import FitError
 from fitkit.estimate import Start, estimate_start, predicted, resonance_side
-from fitkit.jacobian import residual_jacobian
+from fitkit.jacobian import circuit_state, residual_jacobian
 from fitkit.noise import Noise
 from fitkit.nuisance import BOUNDS, NEUTRAL, PARAMETER, Bench
 from fitkit.setups import Setup
@@ -103,20 +103,17 @@ class FitProblem:
         return other
 
     # -- the model in internal parameters -------------------------------------------------
-    def state(self, values: dict) -> tuple:
-        values = {
+    def clipped(self, values: dict) -> dict:
+        """``values`` held within their search bounds (the model reads them so)."""
+        return {
             k: min(max(v, self.bounds[k][0]), self.bounds[k][1]) if k in self.bounds else v
             for k, v in values.items()
         }
-        f0 = math.exp(values["lnf0"])
-        q = math.exp(values["lnq"])
-        if self.known:
-            ((name, (value, _)),) = self.known.items()
-            scale = self.topology.scale_from_known(self.setup, name, value, f0, q)
-        else:
-            scale = math.exp(values["lnscale"])
-        extras = {e: math.exp(values[f"ln_{e}"]) for e in self.topology.extras}
-        return f0, q, scale, extras, values["gain"], values
+
+    def state(self, values: dict) -> tuple:
+        clipped = self.clipped(values)
+        f0, q, scale, extras, _ = circuit_state(self, clipped)
+        return f0, q, scale, extras, clipped["gain"], clipped
 
     def at(self, idx) -> tuple:
         """Frequencies and bench coefficients at the points ``idx`` (every point: no
@@ -220,10 +217,7 @@ class FitProblem:
             **{PARAMETER[term]: NEUTRAL[PARAMETER[term]] for term in self.bench.terms},
             "gain": start.gain,
         }
-        values = {
-            k: min(max(v, self.bounds[k][0]), self.bounds[k][1]) if k in self.bounds else v
-            for k, v in values.items()
-        }
+        values = self.clipped(values)
         free = [n for n in values if n != "gain" and not (n == "lnscale" and self.known)]
         if not self.setup.is_calibrated:
             free.append("gain")
@@ -317,10 +311,7 @@ class FitProblem:
         inside = all(
             self.bounds[n][0] < found[n] < self.bounds[n][1] for n in free if n in self.bounds
         )
-        found = {
-            k: min(max(v, self.bounds[k][0]), self.bounds[k][1]) if k in self.bounds else v
-            for k, v in found.items()
-        }
+        found = self.clipped(found)
         usable = inside and result.success and result.covar is not None
         return found, float(result.chisqr / max(result.nfree, 1)), result if usable else None
 
