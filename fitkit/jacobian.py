@@ -17,6 +17,9 @@ Jacobian costs one model evaluation per parameter and loses half the digits.
 
 from __future__ import annotations
 
+import cmath
+import math
+
 import numpy as np
 
 from fitkit.circuits import TWO_PI
@@ -28,15 +31,20 @@ _CIRCUIT = ("lnf0", "lnq", "lnscale")
 def circuit_state(problem, values: dict) -> tuple:
     """f0, Q, the scale resistance, the extras and the elements for internal values
     (plain floats, or complex ones for the complex step)."""
-    f0, q = np.exp(values["lnf0"]), np.exp(values["lnq"])
+    f0, q = _exp(values["lnf0"]), _exp(values["lnq"])
     if problem.known:
         ((name, (value, _)),) = problem.known.items()
         scale = problem.topology.scale_from_known(problem.setup, name, value, f0, q)
     else:
-        scale = np.exp(values["lnscale"])
-    extras = {e: np.exp(values[f"ln_{e}"]) for e in problem.topology.extras}
+        scale = _exp(values["lnscale"])
+    extras = {e: _exp(values[f"ln_{e}"]) for e in problem.topology.extras}
     elements = problem.topology.components(problem.setup, f0, q, scale, extras)
     return f0, q, scale, extras, elements
+
+
+def _exp(x):
+    """exp of a plain or a complex number (plain Python numbers: faster than numpy's)."""
+    return cmath.exp(x) if isinstance(x, complex) else math.exp(x)
 
 
 def model_and_jacobian(problem, values: dict, names: list, idx) -> tuple:
