@@ -20,6 +20,7 @@ from __future__ import annotations
 import contextlib
 import ctypes
 import errno
+import functools
 import hashlib
 import itertools
 import json
@@ -72,7 +73,10 @@ def settings_key(path: Path, settings: dict) -> str:
     settings and the bytes of the setup file used."""
     from fitkit.bench_file import find_bench_file
 
-    bench = find_bench_file(path, settings.get("setup_path"))
+    return _key_for(find_bench_file(path, settings.get("setup_path")), settings)
+
+
+def _key_for(bench: Path | None, settings: dict) -> str:
     bench_sha = file_sha256(bench) if bench else None
     text = json.dumps([bench_sha, settings], sort_keys=True, default=str)
     return hashlib.sha256(text.encode()).hexdigest()[:32]
@@ -111,6 +115,9 @@ def fit_one(path: str, sha: str | None, key: str, settings: dict, record_path: s
     """Fit one file and write its record; never raises for a bad file (the record says
     why). Returns the status. This is what each worker process runs.
 
+    ``sha`` is the SHA-256 of the file when known; when None, the record takes the one
+    the reader computed from the bytes it fitted (the file is read once).
+
     Raises
     ------
     InputError
@@ -121,6 +128,7 @@ def fit_one(path: str, sha: str | None, key: str, settings: dict, record_path: s
         with quiet_c_output():
             fit, bench = fit_with(path, settings)
         record.update(status=FITTED, fit=fit.to_dict())
+        record["sha256"] = sha or fit.sweep.get("sha256")
         record["setup_file"] = str(bench) if bench else None
         record["doubtful"] = {
             name: getattr(q, "doubtful", "")
@@ -137,6 +145,9 @@ def fit_one(path: str, sha: str | None, key: str, settings: dict, record_path: s
             f"{path}: internal error {type(exc).__name__}: {exc}"
             "\n  fix: this is a fitkit bug; please report it with the file"
         )
+        text = json.dumps(record, allow_nan=False)
+    if record["sha256"] is None and record["status"] == FAILED:
+        record["sha256"] = file_sha256(Path(path))
         text = json.dumps(record, allow_nan=False)
     write_atomic(Path(record_path), text)
     return record["status"]
@@ -159,13 +170,15 @@ def _unreadable_record(path: Path, key: str, record_path: Path) -> str:
     return FAILED
 
 
-def _still_valid(record: dict | None, path: Path, sha: str | None, key: str) -> bool:
+def _still_valid(record: dict | None, path: Path, key: str) -> bool:
+    """Whether a record of an earlier run is for this path, these settings and the
+    file's present bytes (hashed only when the rest matches)."""
     return (
         record is not None
-        and sha is not None
         and record.get("abs_path") == os.path.abspath(path)
-        and record.get("sha256") == sha
         and record.get("settings_key") == key
+        and record.get("sha256") is not None
+        and record.get("sha256") == file_sha256(path)
     )
 
 
@@ -195,7 +208,13 @@ def quiet_c_output() -> Iterator[None]:
 
 def _flush_c_streams() -> None:
     with contextlib.suppress(OSError, AttributeError, TypeError):
-        ctypes.CDLL(None).fflush(None)
+        _c_library().fflush(None)
+
+
+@functools.cache
+def _c_library() -> ctypes.CDLL:
+    """The C library of this process, opened once."""
+    return ctypes.CDLL(None)
 
 
 def _worker_start(main_pid: int) -> None:
@@ -259,8 +278,10 @@ def run_batch(
     on_done: Callable[[str], None] | None = None,
 ) -> None:
     """Fit every input and write its record (:func:`record_file`), reusing still-valid
-    records when resuming. Inputs are hashed one by one while the workers fit, and at
-    most a few fits are in flight, so memory does not grow with the number of inputs.
+    records when resuming. Inputs are handed out one by one while the workers fit, and
+    at most a few fits are in flight, so memory does not grow with the number of inputs.
+    Each sweep is read and hashed once, by the worker that fits it (and, when resuming,
+    hashed by this process to check its record).
 
     Parameters
     ----------
@@ -301,16 +322,21 @@ def _jobs(
 ) -> Iterator[tuple]:
     """The fits to do, as arguments of :func:`fit_one`; an input whose record is still
     valid (when resuming) or that cannot be read is dealt with here."""
+    from fitkit.bench_file import find_bench_file
+
+    keys: dict = {}  # setup file -> settings key: each setup file is hashed once
     for path in inputs.files:
         record_path = record_file(out, path, inputs.root)
-        key = settings_key(path, settings)
-        sha = file_sha256(path)
-        if resume and _still_valid(load_record(record_path), path, sha, key):
-            done("reused")
-        elif sha is None:
+        bench = find_bench_file(path, settings.get("setup_path"))
+        if bench not in keys:
+            keys[bench] = _key_for(bench, settings)
+        key = keys[bench]
+        if unreadable_reason(path) is not None:
             done(_unreadable_record(path, key, record_path))
-        else:
-            yield str(path), sha, key, settings, str(record_path)
+        elif resume and _still_valid(load_record(record_path), path, key):
+            done("reused")
+        else:  # the worker's reader hashes the bytes it fits
+            yield str(path), None, key, settings, str(record_path)
 
 
 def _fit_in_pool(jobs: Iterator[tuple], workers: int, done: Callable[[str], None]) -> None:
