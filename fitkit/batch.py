@@ -48,6 +48,7 @@ from fitkit.batch_output import (
     record_file,
     write_atomic,
 )
+from fitkit.batch_results import row_source
 from fitkit.errors import FitkitError, InputError
 
 __all__ = [
@@ -111,9 +112,12 @@ def _new_record(path: str, sha: str | None, key: str) -> dict:
     }
 
 
-def fit_one(path: str, sha: str | None, key: str, settings: dict, record_path: str) -> str:
+def fit_one(
+    path: str, sha: str | None, key: str, settings: dict, record_path: str
+) -> tuple[str, dict]:
     """Fit one file and write its record; never raises for a bad file (the record says
-    why). Returns the status. This is what each worker process runs.
+    why). Returns the status and the record's :func:`~fitkit.batch_results.row_source`.
+    This is what each worker process runs.
 
     ``sha`` is the SHA-256 of the file when known; when None, the record takes the one
     the reader computed from the bytes it fitted (the file is read once).
@@ -150,7 +154,7 @@ def fit_one(path: str, sha: str | None, key: str, settings: dict, record_path: s
         record["sha256"] = file_sha256(Path(path))
         text = json.dumps(record, allow_nan=False)
     write_atomic(Path(record_path), text)
-    return record["status"]
+    return record["status"], row_source(record)
 
 
 def _outside(exc: FitkitError) -> dict | None:
@@ -161,13 +165,14 @@ def _outside(exc: FitkitError) -> dict | None:
     return {"side": side, "bound_hz": getattr(exc, "bound_hz", None)}
 
 
-def _unreadable_record(path: Path, key: str, record_path: Path) -> str:
-    """The record of an input that cannot be read (a pipe, a folder, a loop...)."""
+def _unreadable_record(path: Path, key: str, record_path: Path) -> dict:
+    """Write and return the record of an input that cannot be read (a pipe, a folder, a
+    loop...)."""
     what, fix = unreadable_reason(path) or ("cannot be read", "check the file")
     record = _new_record(str(path), None, key)
     record["reason"] = InputError(what, remedy=fix, path=path).user_text()
     write_atomic(record_path, json.dumps(record, allow_nan=False))
-    return FAILED
+    return record
 
 
 def _still_valid(record: dict | None, path: Path, key: str) -> bool:
@@ -276,6 +281,7 @@ def run_batch(
     workers: int = 0,
     resume: bool = False,
     on_done: Callable[[str], None] | None = None,
+    on_record: Callable[[int, dict], None] | None = None,
 ) -> None:
     """Fit every input and write its record (:func:`record_file`), reusing still-valid
     records when resuming. Inputs are handed out one by one while the workers fit, and
@@ -298,6 +304,10 @@ def run_batch(
         Reuse records of earlier runs for the same path, bytes and settings.
     on_done : callable, optional
         Called with each input's status as it finishes (for a progress bar).
+    on_record : callable, optional
+        Called with each input's index in ``inputs.files`` and the
+        :func:`~fitkit.batch_results.row_source` of its record, in the order the fits
+        finish (for :class:`~fitkit.batch_results.Tally`).
 
     Raises
     ------
@@ -306,54 +316,61 @@ def run_batch(
     FitkitError
         When a worker process dies from outside.
     """
-    done = on_done or (lambda status: None)
-    jobs = _jobs(inputs, settings, out, resume, done)
+    done, keep = on_done or (lambda status: None), on_record or (lambda index, record: None)
+
+    def finished(index: int, status: str, record: dict) -> None:
+        done(status)
+        keep(index, record)
+
+    jobs = _jobs(inputs, settings, out, resume, finished)
     first = list(itertools.islice(jobs, 2))
     workers = workers or os.cpu_count() or 1
     if workers == 1 or len(first) < 2:  # no pool to start for a single fit
-        for args in itertools.chain(first, jobs):
-            done(fit_one(*args))
+        for index, args in itertools.chain(first, jobs):
+            finished(index, *fit_one(*args))
     else:
-        _fit_in_pool(itertools.chain(first, jobs), workers, done)
+        _fit_in_pool(itertools.chain(first, jobs), workers, finished)
 
 
 def _jobs(
-    inputs: Inputs, settings: dict, out: Path, resume: bool, done: Callable[[str], None]
-) -> Iterator[tuple]:
-    """The fits to do, as arguments of :func:`fit_one`; an input whose record is still
-    valid (when resuming) or that cannot be read is dealt with here."""
+    inputs: Inputs, settings: dict, out: Path, resume: bool, finished: Callable
+) -> Iterator[tuple[int, tuple]]:
+    """The fits to do, as each input's index and the arguments of :func:`fit_one`; an
+    input whose record is still valid (when resuming) or that cannot be read is dealt
+    with here."""
     from fitkit.bench_file import find_bench_file
 
     keys: dict = {}  # setup file -> settings key: each setup file is hashed once
-    for path in inputs.files:
+    for index, path in enumerate(inputs.files):
         record_path = record_file(out, path, inputs.root)
         bench = find_bench_file(path, settings.get("setup_path"))
         if bench not in keys:
             keys[bench] = _key_for(bench, settings)
         key = keys[bench]
+        record = load_record(record_path) if resume else None
         if unreadable_reason(path) is not None:
-            done(_unreadable_record(path, key, record_path))
-        elif resume and _still_valid(load_record(record_path), path, key):
-            done("reused")
+            finished(index, FAILED, _unreadable_record(path, key, record_path))
+        elif _still_valid(record, path, key):
+            finished(index, "reused", row_source(record))
         else:  # the worker's reader hashes the bytes it fits
-            yield str(path), None, key, settings, str(record_path)
+            yield index, (str(path), None, key, settings, str(record_path))
 
 
-def _fit_in_pool(jobs: Iterator[tuple], workers: int, done: Callable[[str], None]) -> None:
+def _fit_in_pool(jobs: Iterator[tuple[int, tuple]], workers: int, finished: Callable) -> None:
     """Fit in worker processes, a few jobs in flight at a time."""
     with _pool(workers) as pool:
-        running = set()
+        running: dict = {}  # future -> input index
         try:
-            for args in jobs:
-                running.add(pool.submit(fit_one, *args))
+            for index, args in jobs:
+                running[pool.submit(fit_one, *args)] = index
                 if len(running) >= 2 * workers:
                     break
             while running:
-                finished, running = wait(running, return_when=FIRST_COMPLETED)
-                for future in finished:
-                    done(future.result())
-                    for args in jobs:
-                        running.add(pool.submit(fit_one, *args))
+                ended, _ = wait(running, return_when=FIRST_COMPLETED)
+                for future in ended:
+                    finished(running.pop(future), *future.result())
+                    for index, args in jobs:
+                        running[pool.submit(fit_one, *args)] = index
                         break
         except BrokenProcessPool:
             raise FitkitError(
