@@ -263,7 +263,7 @@ def _pool(workers: int) -> ProcessPoolExecutor:
     method = "forkserver" if "forkserver" in multiprocessing.get_all_start_methods() else "spawn"
     ctx = multiprocessing.get_context(method)
     if method == "forkserver":
-        ctx.set_forkserver_preload(["fitkit.batch_warmup"])  # imports, then one fit
+        ctx.set_forkserver_preload(["fitkit.workflow", "fitkit.batch"])
     with quiet_c_output():  # the helper processes keep the null device as stdout/stderr
         resource_tracker.ensure_running()
         if method == "forkserver":
