@@ -45,6 +45,7 @@ sys.path.insert(0, str(ROOT / "benchmarks"))
 # subprocesses use this checkout's fitkit, whatever is installed
 os.environ["PYTHONPATH"] = os.pathsep.join(filter(None, [str(ROOT), os.environ.get("PYTHONPATH")]))
 
+from batch_memory import main_memory_mib  # noqa: E402
 from batch_speed import write_sweeps  # noqa: E402
 
 from fitkit.readers import read_sweep  # noqa: E402
@@ -139,13 +140,23 @@ def reading(quick: bool) -> None:
                 f"{ours / theirs:.2f}x", f"<= 1.5x: {met(ours <= 1.5 * theirs)}")  # fmt: skip
 
 
-def run_batch_command(folder: Path, out: Path, workers: int, model: str) -> tuple[float, float]:
-    """(wall seconds, CPU seconds of the batch process and the children it reaped)."""
-    cmd = [sys.executable, "-m", "fitkit", "batch", str(folder), "--out", str(out),
-           "--workers", str(workers), "--model", model]  # fmt: skip
+def timed_batch(folder: Path, out: Path, workers: int, model: str) -> tuple[float, float]:
+    """(wall seconds, peak resident MiB of the batch's main process) of one batch run;
+    with one worker the main process is the one that reads and fits."""
     start = time.perf_counter()
-    cpu = child_cpu(cmd)
-    return time.perf_counter() - start, cpu
+    _, peak = main_memory_mib(folder, out, workers, model)
+    return time.perf_counter() - start, peak
+
+
+def subset(folder: Path, count: int) -> Path:
+    """A folder beside ``folder`` with links to its first ``count`` sweeps and its setup."""
+    part = folder.with_name(f"{folder.name}-first-{count}")
+    if part.exists():
+        return part
+    part.mkdir()
+    for path in [*sorted(folder.glob("*.csv"))[:count], folder / "fitkit-setup.toml"]:
+        (part / path.name).symlink_to(path)
+    return part
 
 
 def outside_the_fit(folder: Path, out: Path, model: str) -> tuple[float, float]:
@@ -165,10 +176,7 @@ def outside_the_fit(folder: Path, out: Path, model: str) -> tuple[float, float]:
             inside[0] += time.process_time() - start
 
     sweeps = sorted(folder.glob("*.csv"))
-    warm = out.with_name(out.name + "-warm")
-    warm.mkdir()
-    for path in [*sweeps[:2], folder / "fitkit-setup.toml"]:
-        (warm / path.name).symlink_to(path)
+    warm = subset(folder, 2)
     fitkit.workflow.fit_sweep = counted
     options = ["--workers", "1", "--model", model, "--force"]
     try:
@@ -184,21 +192,35 @@ def outside_the_fit(folder: Path, out: Path, model: str) -> tuple[float, float]:
 
 def batch(quick: bool, count: int) -> None:
     count = 40 if quick else count
+    half = count // 2
     goals = {"series": 400, "auto": 200}
     with tempfile.TemporaryDirectory() as tmp:
         folder = Path(tmp) / "sweeps"
         folder.mkdir()
         write_sweeps(folder, count, 1001)
-        header(f"Batch of {count} sweeps of 1,001 points, reading and writing included",
-               "sweeps/s/core", "wall")  # fmt: skip
+        first = subset(folder, half)
+        header(f"Batch of {half} then {count} sweeps of 1,001 points, reading and writing "
+               "included (wall)", "sweeps/s/core", "all in")  # fmt: skip
+        print(f"  {'':<34} {'(beyond start)':>14} {'(per core)':>14} {'start-up':>8}")
+        peaks = {}
         for model in goals:
             for workers in (1, 2):
-                wall, cpu = run_batch_command(folder, Path(tmp) / f"{model}-{workers}", workers,
-                                              model)  # fmt: skip
-                per_core = count / wall / workers
-                note = f"CPU {cpu:.1f} s" if workers == 1 else "wall per core"
-                row(f"--model {model}, {workers} worker(s)", f"{per_core:.1f}", f"{wall:.1f} s",
-                    note, f">= {goals[model]}/s/core: {met(per_core >= goals[model])}")  # fmt: skip
+                out = Path(tmp) / f"{model}-{workers}"
+                t_half, peak_half = timed_batch(first, out.with_name(out.name + "-half"),
+                                                workers, model)  # fmt: skip
+                t_all, peak_all = timed_batch(folder, out, workers, model)
+                marginal = (count - half) / max(t_all - t_half, 1e-9) / workers
+                start_up = max(t_half - half / (marginal * workers), 0.0)
+                row(f"--model {model}, {workers} worker(s)", f"{marginal:.1f}",
+                    f"{count / t_all / workers:.1f}", f"{start_up:.1f} s",
+                    f">= {goals[model]}/s/core: {met(marginal >= goals[model])}")  # fmt: skip
+                if workers == 1:
+                    peaks[model] = (peak_half, peak_all)
+        print("\n  memory of the process that fits (one worker): peak resident")
+        for model, (peak_half, peak_all) in peaks.items():
+            per_sweep = (peak_all - peak_half) * 2**20 / (count - half)
+            print(f"  --model {model:<7} {peak_half:6.1f} MiB after {half} sweeps, "
+                  f"{peak_all:6.1f} MiB after {count}: {per_sweep:+.0f} bytes a sweep")  # fmt: skip
         print("\n  where a sweep's CPU time goes (one worker, in this process, warm):")
         for model in goals:
             fit, rest = outside_the_fit(folder, Path(tmp) / f"{model}-in", model)

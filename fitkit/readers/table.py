@@ -1,7 +1,7 @@
 """Delimited text tables as instruments and scripts write them.
 
 The first lines are sniffed (delimiter, decimal mark, metadata and comment lines, the
-header): the candidate dialects vote on the lines up to a dozen rows of numbers, and on
+header): the candidate dialects vote on the lines up to eight rows of numbers, and on
 the first 120 lines when that vote is not clear. A table of plain numbers that fits in
 the first read is then parsed by numpy from the text already in memory; anything else
 (a larger file, numbers with thousands commas or SI prefixes, text or blanks among the
@@ -29,7 +29,7 @@ from fitkit.readers.units import lookup_unit
 _DIALECTS = (("\t", "."), (";", "."), (",", "."), (None, "."), ("\t", ","), (";", ","), (None, ","))
 _DELIMITER_NAMES = {"\t": "tab", ";": "semicolon", ",": "comma", None: "spaces"}
 _SNIFF_LINES = 120  # enough for a preamble, a header and rows to vote on the dialect
-_SNIFF_ROWS = 12  # rows of numbers enough for a clear vote
+_SNIFF_ROWS = 8  # rows of numbers enough for a clear vote
 #: a line that may be a row of numbers: it opens with a digit, sign, point or quote
 _ROW_START = re.compile(r"\s*[-+.\d\"]")
 
