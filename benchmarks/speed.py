@@ -7,18 +7,20 @@ PARTS, comma-separated, from:
   (the bound only), each a fresh process, against ``python -c pass``;
 - ``reading``: ``read_sweep`` against ``numpy.loadtxt`` on the same plain CSV files
   (1,001 and 100,000 rows), in this process;
-- ``batch``: ``fitkit batch`` on seeded synthetic 1,001-point sweeps (tests/synthetic.py)
-  with ``--model series`` and ``auto``, 1 and 2 workers, reading and writing included;
-  then the same batches in this process with the CPU time inside ``fit_sweep`` counted,
-  to show what share of a sweep's time is spent outside the fit;
+- ``batch``: a batch of seeded synthetic 1,001-point sweeps (tests/synthetic.py) with
+  ``--model series`` and ``auto``, reading and writing included: run in this process
+  with one worker, once warm, for the CPU time a sweep costs, inside ``fit_sweep`` and
+  outside it, and the memory of the fitting process as sweeps go by; then as the
+  command, a fresh process with 1 and 2 workers, for the start-up and the wall time;
 - ``points``: the CPU time of one ``--model series`` fit against the number of points
   (101 to 100,000), per point, and the fixed cost extrapolated to 0 points;
 - ``fit``: the fit against a bare least-squares solve, from ``benchmarks/fit_time.py``'s
   ``measure(points, model)``.
 
 Methods compared are timed in the same run, interleaved round by round, and the median
-is kept, so a busy machine slows both sides alike. Times are CPU times (user + system)
-where a process can be measured whole; batch figures with 2 workers are wall times.
+is kept, so a busy machine slows both sides alike. Times are CPU times (user + system);
+the command's CPU counts every process of the batch (its fork server and workers are
+adopted and reaped here, Linux).
 """
 
 from __future__ import annotations
@@ -45,7 +47,6 @@ sys.path.insert(0, str(ROOT / "benchmarks"))
 # subprocesses use this checkout's fitkit, whatever is installed
 os.environ["PYTHONPATH"] = os.pathsep.join(filter(None, [str(ROOT), os.environ.get("PYTHONPATH")]))
 
-from batch_memory import main_memory_mib  # noqa: E402
 from batch_speed import write_sweeps  # noqa: E402
 
 from fitkit.readers import read_sweep  # noqa: E402
@@ -162,17 +163,23 @@ def reap_orphans(timeout: float = 30.0) -> None:
             time.sleep(0.02)
 
 
-def batch_run(folder: Path, out: Path, workers: int, model: str) -> tuple[float, float, float]:
-    """(CPU seconds of every process of the batch, wall seconds, peak resident MiB of the
-    main process) of one batch run; with one worker the main process reads and fits."""
+def batch_run(folder: Path, out: Path, workers: int, model: str) -> tuple[float, float]:
+    """(CPU seconds of every process of the batch, wall seconds) of one ``fitkit batch``."""
+    cmd = [sys.executable, "-m", "fitkit", "batch", str(folder), "--out", str(out),
+           "--workers", str(workers), "--model", model]  # fmt: skip
     before = resource.getrusage(resource.RUSAGE_CHILDREN)
     start = time.perf_counter()
-    _, peak = main_memory_mib(folder, out, workers, model)
+    subprocess.run(cmd, check=True, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
     wall = time.perf_counter() - start
     reap_orphans()
     after = resource.getrusage(resource.RUSAGE_CHILDREN)
-    cpu = (after.ru_utime - before.ru_utime) + (after.ru_stime - before.ru_stime)
-    return cpu, wall, peak
+    return (after.ru_utime - before.ru_utime) + (after.ru_stime - before.ru_stime), wall
+
+
+def resident_mib() -> float:
+    """This process's resident memory now (VmRSS, Linux)."""
+    with open("/proc/self/status") as fh:
+        return next(int(ln.split()[1]) for ln in fh if ln.startswith("VmRSS")) / 1024
 
 
 def subset(folder: Path, count: int) -> Path:
@@ -186,9 +193,10 @@ def subset(folder: Path, count: int) -> Path:
     return part
 
 
-def outside_the_fit(folder: Path, out: Path, model: str) -> tuple[float, float]:
-    """CPU seconds a sweep of a one-worker batch spends in ``fit_sweep`` and outside it
-    (reading, set-up, records, results), counted in this process once warm."""
+def in_process(folder: Path, out: Path, model: str) -> dict:
+    """A one-worker batch run in this process, warm (imports and first calls done on two
+    sweeps): the CPU a sweep spends in ``fit_sweep`` and outside it (reading, set-up,
+    records, results), and the resident memory after half and after all the sweeps."""
     import fitkit.workflow
     from fitkit.cli import main
 
@@ -203,64 +211,58 @@ def outside_the_fit(folder: Path, out: Path, model: str) -> tuple[float, float]:
             inside[0] += time.process_time() - start
 
     sweeps = sorted(folder.glob("*.csv"))
-    warm = subset(folder, 2)
+    half = subset(folder, len(sweeps) // 2)
+
+    def run(where: Path) -> float:
+        command = ["batch", str(where), "--out", str(out), "--workers", "1", "--model", model]
+        return cpu_of(lambda: main([*command, "--force"], standalone_mode=False))
+
     fitkit.workflow.fit_sweep = counted
-    options = ["--workers", "1", "--model", model, "--force"]
     try:
         with contextlib.redirect_stdout(io.StringIO()):
-            main(["batch", str(warm), "--out", str(out), *options], standalone_mode=False)
-            inside[0] = 0.0  # the first calls' set-up (imports, caches) is not counted
-            command = ["batch", str(folder), "--out", str(out), *options]
-            total = cpu_of(lambda: main(command, standalone_mode=False))
+            run(subset(folder, 2))
+            run(half)
+            rss_half = resident_mib()
+            inside[0] = 0.0
+            total = run(folder)
+            rss_all = resident_mib()
     finally:
         fitkit.workflow.fit_sweep = real
-    return inside[0] / len(sweeps), (total - inside[0]) / len(sweeps)
+    n = len(sweeps)
+    return {"fit": inside[0] / n, "rest": (total - inside[0]) / n, "rss": (rss_half, rss_all)}
 
 
 def batch(quick: bool, count: int) -> None:
     count = 40 if quick else count
-    half = count // 2
     goals = {"series": 400, "auto": 200}
     adopt_orphans()
     with tempfile.TemporaryDirectory() as tmp:
         folder = Path(tmp) / "sweeps"
         folder.mkdir()
         write_sweeps(folder, count, 1001)
-        first = subset(folder, half)
-        header(f"Batch of {half} then {count} sweeps of 1,001 points, reading and writing "
-               "included; CPU time of all its processes", "sweeps/CPU-s", "start-up")  # fmt: skip
-        print(f"  {'':<34} {'(beyond start)':>14} {'(CPU)':>14} {'wall':>8}")
-        peaks = {}
+        header(f"Batch of {count} sweeps of 1,001 points, reading and writing included",
+               "sweeps/CPU-s", "fit_sweep")  # fmt: skip
+        print(f"  {'':<34} {'':>14} {'':>14} {'outside':>8}")
+        per_sweep = {}
+        for model, goal in goals.items():
+            got = in_process(folder, Path(tmp) / f"{model}-in", model)
+            per_sweep[model] = got["fit"] + got["rest"]
+            row(f"--model {model}, one worker, warm", f"{1 / per_sweep[model]:.1f}",
+                f"{got['fit'] * 1e3:.2f} ms", f"{got['rest'] / per_sweep[model]:.0%}",
+                f">= {goal}/s/core: {met(1 / per_sweep[model] >= goal)}")  # fmt: skip
+            growth = (got["rss"][1] - got["rss"][0]) * 2**20 / count
+            print(f"  {'':<34} everything but fit_sweep: {got['rest'] * 1e3:.2f} ms a sweep; "
+                  f"resident memory {got['rss'][0]:.1f} MiB, then {growth:+.0f} bytes a sweep "
+                  f"over {count} more")  # fmt: skip
+        print("\n  the command, a fresh process (CPU of all its processes; wall on this machine"
+              " as loaded)")  # fmt: skip
         for model in goals:
             for workers in (1, 2):
-                runs: dict = {first: [], folder: []}
-                for r in range(1 if quick else 2):  # interleaved, medians kept
-                    for where in (first, folder):
-                        out = Path(tmp) / f"{model}-{workers}-{where.name}-{r}"
-                        runs[where].append(batch_run(where, out, workers, model))
-                cpu_half, cpu_all = (statistics.median(c for c, _, _ in runs[w]) for w in runs)
-                _, wall, peak_all = runs[folder][-1]
-                peak_half = runs[first][-1][2]
-                rate = (count - half) / max(cpu_all - cpu_half, 1e-9)
-                start_up = max(cpu_half - half / rate, 0.0)
-                row(f"--model {model}, {workers} worker(s)", f"{rate:.1f}", f"{start_up:.1f} s",
-                    f"{count / wall:.0f}/s",
-                    f">= {goals[model]}/s/core: {met(rate >= goals[model])}")  # fmt: skip
-                if workers == 1:
-                    peaks[model] = (peak_half, peak_all)
-        print("  (wall: sweeps a second of the whole batch, start-up included, on this machine")
-        print("  as loaded at the time; sweeps/CPU-s is the rate per busy core)")
-        print("\n  memory of the process that fits (one worker): peak resident")
-        for model, (peak_half, peak_all) in peaks.items():
-            per_sweep = (peak_all - peak_half) * 2**20 / (count - half)
-            print(f"  --model {model:<7} {peak_half:6.1f} MiB after {half} sweeps, "
-                  f"{peak_all:6.1f} MiB after {count}: {per_sweep:+.0f} bytes a sweep")  # fmt: skip
-        print("\n  where a sweep's CPU time goes (one worker, in this process, warm):")
-        for model in goals:
-            fit, rest = outside_the_fit(folder, Path(tmp) / f"{model}-in", model)
-            share = rest / (fit + rest)
-            print(f"  --model {model:<7} fit_sweep {fit * 1e3:7.2f} ms, everything else "
-                  f"{rest * 1e3:6.2f} ms a sweep ({share:.0%} outside the fit)")  # fmt: skip
+                cpu, wall = batch_run(folder, Path(tmp) / f"{model}-{workers}", workers, model)
+                start_up = cpu - count * per_sweep[model]
+                print(f"  --model {model:<7} {workers} worker(s): CPU {cpu:5.1f} s (start-up and "
+                      f"pool {start_up:+.1f} s beyond the warm sweeps), wall {wall:5.1f} s = "
+                      f"{count / wall:5.1f} sweeps/s")  # fmt: skip
 
 
 def points(quick: bool) -> None:
@@ -307,6 +309,15 @@ def fit_ratios(quick: bool) -> None:
         f"{ratio:.1f}x", f"<= 3x the series fit: {met(ratio <= 3.0)}")  # fmt: skip
 
 
+def cpu_model() -> str:
+    """The processor's name as Linux states it, else what :mod:`platform` knows."""
+    with contextlib.suppress(OSError):
+        for line in Path("/proc/cpuinfo").read_text().splitlines():
+            if line.startswith("model name"):
+                return line.split(":", 1)[1].strip()
+    return platform.processor() or "processor unknown"
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--only", default=",".join(PARTS), help="parts, comma-separated")
@@ -317,7 +328,7 @@ def main() -> None:
     unknown = set(parts) - set(PARTS)
     if unknown:
         parser.error(f"unknown part(s) {', '.join(sorted(unknown))}; choose from {PARTS}")
-    print(f"{platform.node()}: {os.cpu_count()} cores, {platform.processor() or 'cpu'}, "
+    print(f"{platform.node()}: {os.cpu_count()} cores, {cpu_model()}, "
           f"Python {platform.python_version()}, numpy {np.__version__}; "
           f"load average {os.getloadavg()[0]:.1f}")  # fmt: skip
     start = time.perf_counter()
