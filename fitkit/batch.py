@@ -97,11 +97,11 @@ def fit_with(path: str | Path, settings: dict):
     )
 
 
-def _new_record(path: str, sha: str | None, key: str) -> dict:
+def _new_record(path: str, key: str) -> dict:
     return {
         "file": path,
         "abs_path": os.path.abspath(path),
-        "sha256": sha,
+        "sha256": None,  # the reader's, once it has read the file
         "settings_key": key,
         "status": FAILED,
         "reason": "",
@@ -112,27 +112,25 @@ def _new_record(path: str, sha: str | None, key: str) -> dict:
     }
 
 
-def fit_one(
-    path: str, sha: str | None, key: str, settings: dict, record_path: str
-) -> tuple[str, dict]:
+def fit_one(path: str, key: str, settings: dict, record_path: str) -> tuple[str, dict]:
     """Fit one file and write its record; never raises for a bad file (the record says
     why). Returns the status and the record's :func:`~fitkit.batch_results.row_source`.
     This is what each worker process runs.
 
-    ``sha`` is the SHA-256 of the file when known; when None, the record takes the one
-    the reader computed from the bytes it fitted (the file is read once).
+    The record's SHA-256 is the one the reader computed from the bytes it fitted (the
+    file is read once), or the file's when it could not be read or fitted.
 
     Raises
     ------
     InputError
         Only when the record cannot be written (a full disk, a read-only folder).
     """
-    record = _new_record(path, sha, key)
+    record = _new_record(path, key)
     try:
         with quiet_c_output():
             fit, bench = fit_with(path, settings)
         record.update(status=FITTED, fit=fit.to_dict())
-        record["sha256"] = sha or fit.sweep.get("sha256")
+        record["sha256"] = fit.sweep.get("sha256")
         record["setup_file"] = str(bench) if bench else None
         record["doubtful"] = {
             name: getattr(q, "doubtful", "")
@@ -169,7 +167,7 @@ def _unreadable_record(path: Path, key: str, record_path: Path) -> dict:
     """Write and return the record of an input that cannot be read (a pipe, a folder, a
     loop...)."""
     what, fix = unreadable_reason(path) or ("cannot be read", "check the file")
-    record = _new_record(str(path), None, key)
+    record = _new_record(str(path), key)
     record["reason"] = InputError(what, remedy=fix, path=path).user_text()
     write_atomic(record_path, json.dumps(record, allow_nan=False))
     return record
@@ -353,7 +351,7 @@ def _jobs(
         elif _still_valid(record, path, key):
             finished(index, "reused", row_source(record))
         else:  # the worker's reader hashes the bytes it fits
-            yield index, (str(path), None, key, settings, str(record_path))
+            yield index, (str(path), key, settings, str(record_path))
 
 
 def _fit_in_pool(jobs: Iterator[tuple[int, tuple]], workers: int, finished: Callable) -> None:

@@ -28,6 +28,25 @@ PREFIX_EXPONENTS = {
 }
 PREFIXED = re.compile(r"([-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?)\s?([pnu\u00b5\u03bcmkMG])")
 COMMENT = ("#", "!", "//", ";", "%")
+_PREFIX_LETTER = re.compile("[" + "".join(PREFIX_EXPONENTS) + "]")
+
+
+def _plain_row(delimiter: str | None, decimal: str) -> re.Pattern:
+    """A whole line of plain numbers, each cell padded by blanks other than the delimiter;
+    linear in the line's length (a delimiter, or a blank run, between numbers)."""
+    number = rf"[-+]?(?:\d+(?:{re.escape(decimal)}\d*)?|{re.escape(decimal)}\d+)(?:[eE][-+]?\d+)?"
+    if delimiter is None:
+        return re.compile(rf"[ \t]*{number}(?:[ \t]+{number})+[ \t]*")
+    pad = "[ ]*" if delimiter == "\t" else "[ \t]*"
+    return re.compile(rf"{pad}{number}{pad}(?:{re.escape(delimiter)}{pad}{number}{pad})+")
+
+
+_PLAIN_ROWS = {
+    (delimiter, decimal): _plain_row(delimiter, decimal)
+    for delimiter in ("\t", ";", ",", None)
+    for decimal in (".", ",")
+    if delimiter != decimal
+}
 
 
 def split_cells(line: str, delimiter: str | None) -> list[str]:
@@ -82,6 +101,11 @@ def numeric_fields(line: str, delimiter: str | None, decimal: str) -> int:
     """How many cells the line has when every non-empty cell is a number, else 0."""
     if delimiter is not None and delimiter not in line:
         return 0
+    plain = _PLAIN_ROWS.get((delimiter, decimal))
+    if plain is not None and plain.fullmatch(line):  # the common case, in one match
+        cells = line.split(delimiter)
+        if len(line) <= 64 or max(map(len, cells)) <= 64:
+            return len(cells)
     if not line.strip() or line.lstrip().startswith(COMMENT):
         return 0
     cells = split_cells(line, delimiter)
@@ -89,8 +113,6 @@ def numeric_fields(line: str, delimiter: str | None, decimal: str) -> int:
         cells.pop()
     if len(cells) < 2:
         return 0
-    if decimal == "." and all(len(c) <= 64 and _NUMBER.fullmatch(c) for c in cells if c):
-        return len(cells)  # plain numbers: the common case, without the other forms' checks
     if not all(is_number(c, decimal) for c in cells if c):
         return 0
     return len(cells)
@@ -115,6 +137,8 @@ def _may_hold_text_cells(text: str, delimiter: str | None) -> bool:
     """False when no cell in ``text`` can be grouped or prefixed: it holds no prefix
     letter, and no comma inside a cell (in a comma-delimited table, a grouped number is
     quoted)."""
-    if any(letter in text for letter in PREFIX_EXPONENTS):
+    if ('"' if delimiter == "," else ",") in text:
         return True
-    return ('"' if delimiter == "," else ",") in text
+    if len(text) < 200:
+        return _PREFIX_LETTER.search(text) is not None
+    return any(letter in text for letter in PREFIX_EXPONENTS)  # one fast scan a letter

@@ -57,8 +57,42 @@ def tidy_sweep(
         repeated frequencies when ``duplicates="refuse"``.
     """
     notes = list(notes)
+    if isinstance(lines, (int, np.integer)) and freq_hz.size < 2:
+        lines = np.arange(freq_hz.size) + lines
+    if not (np.isfinite(freq_hz).all() and np.isfinite(values).all()):
+        freq_hz, values, lines = _drop_blank_rows(freq_hz, values, lines, path, notes)
+    _refuse_beyond_readings(freq_hz, values, lines, path, freq_column)
+    if freq_hz.size < 2:
+        raise InputError(
+            f"the file holds {freq_hz.size} point(s) of data",
+            remedy="a fit needs a sweep of many points across the resonance; if the "
+            "instrument saved more, the file was cut short: export it again",
+            path=path,
+            line=int(lines[0]) if lines.size else None,
+        )
+    steps = np.diff(freq_hz)
+    if steps.size and steps.min() > 0:  # ascending and unique, the common case
+        return _sweep(freq_hz, values, path, kind, recorded_in_db, metadata, notes, sha256)
+    if (steps < 0).any():
+        if (steps <= 0).all():
+            notes.append("sorted a descending sweep")
+        else:
+            notes.append(f"sorted {int((steps < 0).sum())} out-of-order row(s)")
+        order = np.argsort(freq_hz, kind="stable")
+        freq_hz, values = freq_hz[order], values[order]
+        lines = lines[order] if isinstance(lines, np.ndarray) else order + lines
+        steps = np.diff(freq_hz)
+    repeated = steps == 0
+    if repeated.any():
+        freq_hz, values = _merge(freq_hz, values, lines, repeated, duplicates, path, notes)
+    return _sweep(freq_hz, values, path, kind, recorded_in_db, metadata, notes, sha256)
+
+
+def _drop_blank_rows(freq_hz, values, lines, path, notes) -> tuple:
+    """Drop rows with a NaN (said in a note, except blank lines at the end of the file);
+    refuse an infinite value."""
     empty = np.isnan(freq_hz) | np.isnan(values)
-    if isinstance(lines, (int, np.integer)) and (empty.any() or freq_hz.size < 2):
+    if isinstance(lines, (int, np.integer)):
         lines = np.arange(freq_hz.size) + lines
     if empty.any():
         # blank lines at the end of a file go quietly; any row with a number in it is said
@@ -76,28 +110,10 @@ def tidy_sweep(
             path=path,
             line=_line(lines, int(np.argmax(bad))),
         )
-    _refuse_beyond_readings(freq_hz, values, lines, path, freq_column)
-    if freq_hz.size < 2:
-        raise InputError(
-            f"the file holds {freq_hz.size} point(s) of data",
-            remedy="a fit needs a sweep of many points across the resonance; if the "
-            "instrument saved more, the file was cut short: export it again",
-            path=path,
-            line=int(lines[0]) if lines.size else None,
-        )
-    steps = np.diff(freq_hz)
-    if (steps < 0).any():
-        if (steps <= 0).all():
-            notes.append("sorted a descending sweep")
-        else:
-            notes.append(f"sorted {int((steps < 0).sum())} out-of-order row(s)")
-        order = np.argsort(freq_hz, kind="stable")
-        freq_hz, values = freq_hz[order], values[order]
-        lines = lines[order] if isinstance(lines, np.ndarray) else order + lines
-        steps = np.diff(freq_hz)
-    repeated = steps == 0
-    if repeated.any():
-        freq_hz, values = _merge(freq_hz, values, lines, repeated, duplicates, path, notes)
+    return freq_hz, values, lines
+
+
+def _sweep(freq_hz, values, path, kind, recorded_in_db, metadata, notes, sha256) -> Sweep:
     return Sweep(
         freq_hz,
         values,
@@ -152,6 +168,24 @@ MAX_READING = 1e100
 
 
 def _refuse_beyond_readings(freq_hz, values, lines, path, freq_column) -> None:
+    if freq_hz.size and (freq_hz.min() <= 0 or freq_hz.max() > MAX_FREQ_HZ):
+        _refuse_frequency(freq_hz, lines, path, freq_column)
+    size = np.abs(values)
+    if not size.size:
+        return
+    largest = float(size.max())
+    if largest > MAX_READING or 0 < largest < 1 / MAX_READING:
+        what = "beyond 1e100" if largest > MAX_READING else "the largest, and all are below 1e-100"
+        raise InputError(
+            f"the reading {largest:g} is {what}: far outside anything an instrument writes",
+            remedy="check the measured column's unit and that the right column is read "
+            "(--column mag=NAME:UNIT)",
+            path=path,
+            line=_line(lines, int(np.argmax(size))),
+        )
+
+
+def _refuse_frequency(freq_hz, lines, path, freq_column) -> None:
     for bad, message, remedy in (
         (
             freq_hz <= 0,
@@ -173,19 +207,6 @@ def _refuse_beyond_readings(freq_hz, values, lines, path, freq_column) -> None:
                 line=_line(lines, i),
                 column=freq_column,
             )
-    size = np.abs(values)
-    if not size.size:
-        return
-    largest = float(size.max())
-    if largest > MAX_READING or 0 < largest < 1 / MAX_READING:
-        what = "beyond 1e100" if largest > MAX_READING else "the largest, and all are below 1e-100"
-        raise InputError(
-            f"the reading {largest:g} is {what}: far outside anything an instrument writes",
-            remedy="check the measured column's unit and that the right column is read "
-            "(--column mag=NAME:UNIT)",
-            path=path,
-            line=_line(lines, int(np.argmax(size))),
-        )
 
 
 def _line(lines: np.ndarray | int, row: int) -> int:
