@@ -273,3 +273,28 @@ def test_decimal_commas_whose_first_rows_look_like_thousands(tmp_path):
     assert reading.details["decimal mark"] == "comma"
     np.testing.assert_allclose(reading.sweep.freq_hz[:2], [100.5e3, 101.501e3], rtol=1e-15)
     np.testing.assert_allclose(reading.sweep.freq_hz[-1], 122.25e3, rtol=1e-15)
+
+
+@pytest.mark.parametrize(
+    ("line", "delimiter", "decimal", "cells"),
+    [
+        # counted by hand from the rules in docs/readers.md: every non-empty cell a number
+        ("1.5, 2 ,3", ",", ".", 3),
+        (" 1e3\t-2.5E-3 ", "\t", ".", 2),
+        ("1,5;-0,25;7", ";", ",", 3),
+        ("1.5   2.5\t3", None, ".", 3),
+        ("1.5,,3", ",", ".", 3),  # an empty cell among numbers
+        ("1.5,2,", ",", ".", 2),  # a trailing delimiter
+        ("1.5,nan", ",", ".", 2),
+        ('1,"1,012.5"', ",", ".", 2),  # thousands commas in a quoted cell
+        ("1.5;4.7u", ";", ".", 2),  # an SI prefix
+        ("1.5,x", ",", ".", 0),
+        ("1" * 70 + ",2", ",", ".", 0),  # no instrument writes a 70-digit number
+        ("# 1,2", ",", ".", 0),
+        ("1.5", ",", ".", 0),
+    ],
+)
+def test_which_lines_are_rows_of_numbers(line, delimiter, decimal, cells):
+    from fitkit.readers.cells import numeric_fields
+
+    assert numeric_fields(line, delimiter, decimal) == cells
