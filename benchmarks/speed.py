@@ -270,7 +270,7 @@ def points(quick: bool) -> None:
 
     setup = SETUPS["divider-terminal"]
     sizes = (101, 1001, 10_001, 100_001)
-    header("Fit cost against points (--model series, CPU, median)", "ms per fit", "ms/point")
+    header("Fit cost against points (--model series, CPU, median)", "ms per fit", "per point")
     ms = []
     for n in sizes:
         sweep = make_sweep(setup, seed=3, points=n)
