@@ -20,6 +20,7 @@ from __future__ import annotations
 import contextlib
 import ctypes
 import errno
+import functools
 import hashlib
 import itertools
 import json
@@ -47,6 +48,7 @@ from fitkit.batch_output import (
     record_file,
     write_atomic,
 )
+from fitkit.batch_results import row_source
 from fitkit.errors import FitkitError, InputError
 
 __all__ = [
@@ -72,7 +74,10 @@ def settings_key(path: Path, settings: dict) -> str:
     settings and the bytes of the setup file used."""
     from fitkit.bench_file import find_bench_file
 
-    bench = find_bench_file(path, settings.get("setup_path"))
+    return _key_for(find_bench_file(path, settings.get("setup_path")), settings)
+
+
+def _key_for(bench: Path | None, settings: dict) -> str:
     bench_sha = file_sha256(bench) if bench else None
     text = json.dumps([bench_sha, settings], sort_keys=True, default=str)
     return hashlib.sha256(text.encode()).hexdigest()[:32]
@@ -92,11 +97,11 @@ def fit_with(path: str | Path, settings: dict):
     )
 
 
-def _new_record(path: str, sha: str | None, key: str) -> dict:
+def _new_record(path: str, key: str) -> dict:
     return {
         "file": path,
         "abs_path": os.path.abspath(path),
-        "sha256": sha,
+        "sha256": None,  # the reader's, once it has read the file
         "settings_key": key,
         "status": FAILED,
         "reason": "",
@@ -107,20 +112,25 @@ def _new_record(path: str, sha: str | None, key: str) -> dict:
     }
 
 
-def fit_one(path: str, sha: str | None, key: str, settings: dict, record_path: str) -> str:
+def fit_one(path: str, key: str, settings: dict, record_path: str) -> tuple[str, dict]:
     """Fit one file and write its record; never raises for a bad file (the record says
-    why). Returns the status. This is what each worker process runs.
+    why). Returns the status and the record's :func:`~fitkit.batch_results.row_source`.
+    This is what each worker process runs.
+
+    The record's SHA-256 is the one the reader computed from the bytes it fitted (the
+    file is read once), or the file's when it could not be read or fitted.
 
     Raises
     ------
     InputError
         Only when the record cannot be written (a full disk, a read-only folder).
     """
-    record = _new_record(path, sha, key)
+    record = _new_record(path, key)
     try:
         with quiet_c_output():
             fit, bench = fit_with(path, settings)
         record.update(status=FITTED, fit=fit.to_dict())
+        record["sha256"] = fit.sweep.get("sha256")
         record["setup_file"] = str(bench) if bench else None
         record["doubtful"] = {
             name: getattr(q, "doubtful", "")
@@ -138,8 +148,11 @@ def fit_one(path: str, sha: str | None, key: str, settings: dict, record_path: s
             "\n  fix: this is a fitkit bug; please report it with the file"
         )
         text = json.dumps(record, allow_nan=False)
+    if record["sha256"] is None and record["status"] == FAILED:
+        record["sha256"] = file_sha256(Path(path))
+        text = json.dumps(record, allow_nan=False)
     write_atomic(Path(record_path), text)
-    return record["status"]
+    return record["status"], row_source(record)
 
 
 def _outside(exc: FitkitError) -> dict | None:
@@ -150,22 +163,25 @@ def _outside(exc: FitkitError) -> dict | None:
     return {"side": side, "bound_hz": getattr(exc, "bound_hz", None)}
 
 
-def _unreadable_record(path: Path, key: str, record_path: Path) -> str:
-    """The record of an input that cannot be read (a pipe, a folder, a loop...)."""
+def _unreadable_record(path: Path, key: str, record_path: Path) -> dict:
+    """Write and return the record of an input that cannot be read (a pipe, a folder, a
+    loop...)."""
     what, fix = unreadable_reason(path) or ("cannot be read", "check the file")
-    record = _new_record(str(path), None, key)
+    record = _new_record(str(path), key)
     record["reason"] = InputError(what, remedy=fix, path=path).user_text()
     write_atomic(record_path, json.dumps(record, allow_nan=False))
-    return FAILED
+    return record
 
 
-def _still_valid(record: dict | None, path: Path, sha: str | None, key: str) -> bool:
+def _still_valid(record: dict | None, path: Path, key: str) -> bool:
+    """Whether a record of an earlier run is for this path, these settings and the
+    file's present bytes (hashed only when the rest matches)."""
     return (
         record is not None
-        and sha is not None
         and record.get("abs_path") == os.path.abspath(path)
-        and record.get("sha256") == sha
         and record.get("settings_key") == key
+        and record.get("sha256") is not None
+        and record.get("sha256") == file_sha256(path)
     )
 
 
@@ -195,7 +211,13 @@ def quiet_c_output() -> Iterator[None]:
 
 def _flush_c_streams() -> None:
     with contextlib.suppress(OSError, AttributeError, TypeError):
-        ctypes.CDLL(None).fflush(None)
+        _c_library().fflush(None)
+
+
+@functools.cache
+def _c_library() -> ctypes.CDLL:
+    """The C library of this process, opened once."""
+    return ctypes.CDLL(None)
 
 
 def _worker_start(main_pid: int) -> None:
@@ -257,10 +279,13 @@ def run_batch(
     workers: int = 0,
     resume: bool = False,
     on_done: Callable[[str], None] | None = None,
+    on_record: Callable[[int, dict], None] | None = None,
 ) -> None:
     """Fit every input and write its record (:func:`record_file`), reusing still-valid
-    records when resuming. Inputs are hashed one by one while the workers fit, and at
-    most a few fits are in flight, so memory does not grow with the number of inputs.
+    records when resuming. Inputs are handed out one by one while the workers fit, and
+    at most a few fits are in flight, so memory does not grow with the number of inputs.
+    Each sweep is read and hashed once, by the worker that fits it (and, when resuming,
+    hashed by this process to check its record).
 
     Parameters
     ----------
@@ -277,6 +302,10 @@ def run_batch(
         Reuse records of earlier runs for the same path, bytes and settings.
     on_done : callable, optional
         Called with each input's status as it finishes (for a progress bar).
+    on_record : callable, optional
+        Called with each input's index in ``inputs.files`` and the
+        :func:`~fitkit.batch_results.row_source` of its record, in the order the fits
+        finish (for :class:`~fitkit.batch_results.Tally`).
 
     Raises
     ------
@@ -285,49 +314,61 @@ def run_batch(
     FitkitError
         When a worker process dies from outside.
     """
-    done = on_done or (lambda status: None)
-    jobs = _jobs(inputs, settings, out, resume, done)
+    done, keep = on_done or (lambda status: None), on_record or (lambda index, record: None)
+
+    def finished(index: int, status: str, record: dict) -> None:
+        done(status)
+        keep(index, record)
+
+    jobs = _jobs(inputs, settings, out, resume, finished)
     first = list(itertools.islice(jobs, 2))
     workers = workers or os.cpu_count() or 1
     if workers == 1 or len(first) < 2:  # no pool to start for a single fit
-        for args in itertools.chain(first, jobs):
-            done(fit_one(*args))
+        for index, args in itertools.chain(first, jobs):
+            finished(index, *fit_one(*args))
     else:
-        _fit_in_pool(itertools.chain(first, jobs), workers, done)
+        _fit_in_pool(itertools.chain(first, jobs), workers, finished)
 
 
 def _jobs(
-    inputs: Inputs, settings: dict, out: Path, resume: bool, done: Callable[[str], None]
-) -> Iterator[tuple]:
-    """The fits to do, as arguments of :func:`fit_one`; an input whose record is still
-    valid (when resuming) or that cannot be read is dealt with here."""
-    for path in inputs.files:
+    inputs: Inputs, settings: dict, out: Path, resume: bool, finished: Callable
+) -> Iterator[tuple[int, tuple]]:
+    """The fits to do, as each input's index and the arguments of :func:`fit_one`; an
+    input whose record is still valid (when resuming) or that cannot be read is dealt
+    with here."""
+    from fitkit.bench_file import find_bench_file
+
+    keys: dict = {}  # setup file -> settings key: each setup file is hashed once
+    for index, path in enumerate(inputs.files):
         record_path = record_file(out, path, inputs.root)
-        key = settings_key(path, settings)
-        sha = file_sha256(path)
-        if resume and _still_valid(load_record(record_path), path, sha, key):
-            done("reused")
-        elif sha is None:
-            done(_unreadable_record(path, key, record_path))
-        else:
-            yield str(path), sha, key, settings, str(record_path)
+        bench = find_bench_file(path, settings.get("setup_path"))
+        if bench not in keys:
+            keys[bench] = _key_for(bench, settings)
+        key = keys[bench]
+        record = load_record(record_path) if resume else None
+        if unreadable_reason(path) is not None:
+            finished(index, FAILED, _unreadable_record(path, key, record_path))
+        elif _still_valid(record, path, key):
+            finished(index, "reused", row_source(record))
+        else:  # the worker's reader hashes the bytes it fits
+            yield index, (str(path), key, settings, str(record_path))
 
 
-def _fit_in_pool(jobs: Iterator[tuple], workers: int, done: Callable[[str], None]) -> None:
+def _fit_in_pool(jobs: Iterator[tuple[int, tuple]], workers: int, finished: Callable) -> None:
     """Fit in worker processes, a few jobs in flight at a time."""
     with _pool(workers) as pool:
-        running = set()
+        running: dict = {}  # future -> input index
         try:
-            for args in jobs:
-                running.add(pool.submit(fit_one, *args))
+            for index, args in jobs:
+                running[pool.submit(fit_one, *args)] = index
                 if len(running) >= 2 * workers:
                     break
             while running:
-                finished, running = wait(running, return_when=FIRST_COMPLETED)
-                for future in finished:
-                    done(future.result())
-                    for args in jobs:
-                        running.add(pool.submit(fit_one, *args))
+                ended, _ = wait(running, return_when=FIRST_COMPLETED)
+                for future in ended:
+                    finished(running.pop(future), *future.result())
+                    for index, args in jobs:
+                        running[pool.submit(fit_one, *args)] = index
                         break
         except BrokenProcessPool:
             raise FitkitError(

@@ -2,8 +2,9 @@
 statistics, the units that stand out, identical files; written as ``results.csv`` (SI),
 ``results-readable.csv`` (engineering notation with units) and ``results.json``.
 
-The records are read from disk twice, one at a time (once for statistics and counts,
-once to write the rows), so the main process holds a few numbers per input, not the
+The statistics and counts are tallied as each fit finishes (:class:`Tally`, from the
+small :func:`row_source` a worker returns), and the records are read back from disk one
+at a time to write the rows, so the main process holds a few numbers per input, not the
 inputs' fits: its memory stays flat in the number of sweeps.
 """
 
@@ -189,50 +190,86 @@ def _same_bytes(inputs: Inputs, out: Path, prefix: np.ndarray, known: np.ndarray
     return [files for sha, files in groups.items() if sha and len(files) > 1]
 
 
-def summarise(inputs: Inputs, out: Path, spec: Spec | None) -> dict:
-    """Counts, statistics, stand-out units, identical files and per-unit notes of a batch
-    (what ``results.json`` holds besides the rows), read from the records one by one.
+def row_source(record: dict) -> dict:
+    """A record with only what :func:`make_row` reads from its fit (values, uncertainties
+    and warnings; not the covariance, bench or sweep details): small enough to pass
+    from a worker process as each fit finishes."""
+    fit = record.get("fit")
+    if not fit:
+        return record
+    slim = {"values": fit["values"], "derived": fit["derived"]}
+    return {**record, "fit": {**slim, "fit": {"warnings": fit["fit"]["warnings"]}}}
 
-    Returns
-    -------
-    dict
-        ``fitkit_version``, ``rule``, ``spec``, ``counts``, ``statistics``,
-        ``stand_out_rule``, ``stand_out``, ``same_bytes`` (lists of files with identical
-        bytes), ``marks`` (units with fit warnings, with doubtful values, identical
-        files), ``notes`` (per unit: file, kind, text), ``skipped`` (folders not searched).
+
+class Tally:
+    """Counts, statistics, stand-out units, identical files and per-unit notes of a batch
+    (what ``results.json`` holds besides the rows), gathered record by record in any
+    order (as fits finish). It holds a few numbers per input (the values for the
+    statistics, the first bits of each checksum) and the notes of units that are not a
+    plain pass.
+
+    Parameters
+    ----------
+    inputs : Inputs
+        The batch's inputs; records are added by their index in ``inputs.files``.
+    spec : Spec or None
+        The specification the units are judged against.
     """
-    n = len(inputs.files)
-    table = np.full((n, len(_NAMES)), np.nan)
-    prefix, known = np.zeros(n, dtype=np.uint64), np.zeros(n, dtype=bool)
-    counts, notes = {}, []
-    for i, record, name in _records(inputs, out):
-        row = make_row(record, spec, name)
-        table[i] = [_number(row[q]) for q in _NAMES]
+
+    def __init__(self, inputs: Inputs, spec: Spec | None) -> None:
+        n = len(inputs.files)
+        self.inputs, self.spec = inputs, spec
+        self.table = np.full((n, len(_NAMES)), np.nan)
+        self.prefix, self.known = np.zeros(n, dtype=np.uint64), np.zeros(n, dtype=bool)
+        self.counts: dict[str, int] = {}
+        self.notes: dict[int, list] = {}
+
+    def add(self, index: int, record: dict) -> None:
+        """Count one input's record (a whole record or its :func:`row_source`)."""
+        row = make_row(record, self.spec)
+        self.table[index] = [_number(row[q]) for q in _NAMES]
         word = row["verdict"] or row["status"]
-        counts[word] = counts.get(word, 0) + 1
-        notes += _notes(row, record)
+        self.counts[word] = self.counts.get(word, 0) + 1
+        notes = _notes(row, record)
+        if notes:
+            self.notes[index] = notes
         if row["sha256"]:
-            prefix[i], known[i] = int(row["sha256"][:16], 16), True
-    stats, stand_out = _statistics(table, [str(f) for f in inputs.files])
-    same_bytes = _same_bytes(inputs, out, prefix, known)
-    marks = {
-        "fit warnings": sum(1 for n in notes if n["kind"] == "warnings"),
-        "doubtful values": sum(1 for n in notes if n["kind"] == "doubtful"),
-        "identical files": sum(len(group) for group in same_bytes),
-    }
-    return {
-        "fitkit_version": __version__,
-        "rule": spec.rule_text() if spec else "no specification given",
-        "spec": spec.source if spec else None,
-        "counts": counts,
-        "marks": marks,
-        "statistics": stats,
-        "stand_out_rule": STAND_OUT_RULE,
-        "stand_out": stand_out,
-        "same_bytes": same_bytes,
-        "notes": notes,
-        "skipped": list(inputs.skipped),
-    }
+            self.prefix[index], self.known[index] = int(row["sha256"][:16], 16), True
+
+    def summary(self, out: Path) -> dict:
+        """The summary, once every input has been added.
+
+        Returns
+        -------
+        dict
+            ``fitkit_version``, ``rule``, ``spec``, ``counts``, ``statistics``,
+            ``stand_out_rule``, ``stand_out``, ``same_bytes`` (lists of files with
+            identical bytes), ``marks`` (units with fit warnings, with doubtful values,
+            identical files), ``notes`` (per unit: file, kind, text), ``skipped``
+            (folders not searched).
+        """
+        inputs, spec = self.inputs, self.spec
+        notes = [note for i in sorted(self.notes) for note in self.notes[i]]
+        stats, stand_out = _statistics(self.table, [str(f) for f in inputs.files])
+        same_bytes = _same_bytes(inputs, out, self.prefix, self.known)
+        marks = {
+            "fit warnings": sum(1 for n in notes if n["kind"] == "warnings"),
+            "doubtful values": sum(1 for n in notes if n["kind"] == "doubtful"),
+            "identical files": sum(len(group) for group in same_bytes),
+        }
+        return {
+            "fitkit_version": __version__,
+            "rule": spec.rule_text() if spec else "no specification given",
+            "spec": spec.source if spec else None,
+            "counts": self.counts,
+            "marks": marks,
+            "statistics": stats,
+            "stand_out_rule": STAND_OUT_RULE,
+            "stand_out": stand_out,
+            "same_bytes": same_bytes,
+            "notes": notes,
+            "skipped": list(inputs.skipped),
+        }
 
 
 def rows(inputs: Inputs, out: Path, spec: Spec | None, summary: dict) -> Iterator[dict]:

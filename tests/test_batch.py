@@ -166,3 +166,24 @@ def test_batch_of_a_list_and_a_glob(tmp_path):
     assert result.exit_code == 0, result.output
     assert sorted(rows_by_name(out)) == ["kit-01.csv", "kit-02.csv", "kit-03.csv"]
     assert rows_by_name(out)["kit-01.csv"]["verdict"] == ""  # no spec: no verdicts
+
+
+def test_the_summary_does_not_depend_on_the_order_fits_finish(tmp_path):
+    # workers finish in any order: the tally of the records, added last to first, must
+    # give the summary results.json holds (counts, statistics, stand-out units, notes)
+    from fitkit.batch_inputs import find_inputs
+    from fitkit.batch_output import load_record, record_file
+    from fitkit.spec import load_spec
+
+    out = tmp_path / "out"
+    assert run("batch", KITS, "--spec", SPEC, "--out", out, "--workers", "1").exit_code == 0
+    written = json.loads((out / "results.json").read_text())
+    found = find_inputs([str(KITS)], skip=out)
+    tally = results.Tally(found, load_spec(SPEC))
+    for index in reversed(range(len(found.files))):
+        record = load_record(record_file(out, found.files[index], found.root))
+        tally.add(index, results.row_source(record))
+    summary = json.loads(json.dumps(tally.summary(out)))
+    for key in ("counts", "marks", "statistics", "stand_out", "same_bytes", "notes"):
+        assert summary[key] == written[key], key
+    assert written["notes"] and written["stand_out"]  # the kits give some of each

@@ -75,3 +75,24 @@ def test_columns_from_options():
         "phase": ":rad",
         "kind": "s21",
     }
+
+
+def test_inspect_and_plan_import_no_numerical_library():
+    """'fitkit inspect' on a plain table and 'fitkit plan' (the bound) must start quickly:
+    no lmfit, scipy, matplotlib or pandas (checked in a fresh interpreter)."""
+    import subprocess
+    import sys
+    from pathlib import Path
+
+    sample = Path(__file__).resolve().parent.parent / "sample_sweeps/hand_wound_series/sweep.csv"
+    plan = ["plan", "--r", "6.8", "--l", "220u", "--c", "1n", "--sense-r", "47", "--noise", "1%"]
+    code = (
+        "import sys; from click.testing import CliRunner; from fitkit.cli import main; "
+        f"a = CliRunner().invoke(main, ['inspect', {str(sample)!r}]); "
+        f"b = CliRunner().invoke(main, {plan!r}); "
+        "assert a.exit_code == b.exit_code == 0, (a.output, b.output); "
+        "print(sorted(m for m in ('lmfit', 'scipy', 'matplotlib', 'pandas') if m in sys.modules))"
+    )
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True)
+    assert out.returncode == 0, out.stderr
+    assert out.stdout.strip() == "[]"

@@ -240,3 +240,61 @@ def test_the_sweep_carries_the_files_sha256(tmp_path):
     path = write(tmp_path, "freq (Hz),gain (dB)\n1,2\n2,3\n")
     expected = hashlib.sha256(Path(path).read_bytes()).hexdigest()
     assert read_sweep(path).sha256 == expected
+
+
+def test_plain_rows_and_rows_with_a_comment_read_the_same_numbers(tmp_path):
+    # plain rows are parsed by numpy, rows with a comment among them by pandas: both must
+    # give each cell's correctly rounded double, as Python's float() does (IEEE 754
+    # round-to-nearest decimal conversion, Python language reference, from memory)
+    rng = np.random.default_rng(13)
+    freq = np.sort(rng.uniform(1e5, 1e6, 300))
+    gain = rng.uniform(0.01, 1.0, 300)
+    cells = [(f"{f:.9g}", f"{g:.17g}") for f, g in zip(freq, gain, strict=True)]
+    body = [f"{f},{g}" for f, g in cells]
+    plain = write(tmp_path, "freq (Hz),gain\n" + "\n".join(body) + "\n", name="plain.csv")
+    body.insert(150, "# range switched")
+    commented = write(tmp_path, "freq (Hz),gain\n" + "\n".join(body) + "\n", name="comment.csv")
+    expected_freq = np.array([float(f) for f, _ in cells])
+    expected_gain = np.array([float(g) for _, g in cells])
+    for path in (plain, commented):
+        sweep = read_sweep(path)
+        assert np.array_equal(sweep.freq_hz, expected_freq)
+        assert np.array_equal(sweep.values, expected_gain)
+    assert any("comment line" in note for note in read_sweep(commented).notes)
+
+
+def test_decimal_commas_whose_first_rows_look_like_thousands(tmp_path):
+    # "1,500;0,250" reads as thousands or as decimal commas; a later row settles it, so
+    # the whole start of the file votes, not only its first rows
+    first = [f"{100 + i},{500 + i:03d};0,{250 + i:03d}" for i in range(20)]
+    later = ["121,5;0,2705", "122,25;0,28"]
+    path = write(tmp_path, "f (kHz);gain\n" + "\n".join(first + later) + "\n")
+    reading = inspect_sweep(path)
+    assert reading.details["decimal mark"] == "comma"
+    np.testing.assert_allclose(reading.sweep.freq_hz[:2], [100.5e3, 101.501e3], rtol=1e-15)
+    np.testing.assert_allclose(reading.sweep.freq_hz[-1], 122.25e3, rtol=1e-15)
+
+
+@pytest.mark.parametrize(
+    ("line", "delimiter", "decimal", "cells"),
+    [
+        # counted by hand from the rules in docs/readers.md: every non-empty cell a number
+        ("1.5, 2 ,3", ",", ".", 3),
+        (" 1e3\t-2.5E-3 ", "\t", ".", 2),
+        ("1,5;-0,25;7", ";", ",", 3),
+        ("1.5   2.5\t3", None, ".", 3),
+        ("1.5,,3", ",", ".", 3),  # an empty cell among numbers
+        ("1.5,2,", ",", ".", 2),  # a trailing delimiter
+        ("1.5,nan", ",", ".", 2),
+        ('1,"1,012.5"', ",", ".", 2),  # thousands commas in a quoted cell
+        ("1.5;4.7u", ";", ".", 2),  # an SI prefix
+        ("1.5,x", ",", ".", 0),
+        ("1" * 70 + ",2", ",", ".", 0),  # no instrument writes a 70-digit number
+        ("# 1,2", ",", ".", 0),
+        ("1.5", ",", ".", 0),
+    ],
+)
+def test_which_lines_are_rows_of_numbers(line, delimiter, decimal, cells):
+    from fitkit.readers.cells import numeric_fields
+
+    assert numeric_fields(line, delimiter, decimal) == cells

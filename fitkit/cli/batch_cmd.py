@@ -19,7 +19,7 @@ from fitkit.batch_output import (
     command_line,
     output_folder,
 )
-from fitkit.batch_results import load_results, summarise, write_results
+from fitkit.batch_results import Tally, load_results, write_results
 from fitkit.cli import checks
 from fitkit.cli.base import main, reports_errors
 from fitkit.cli.fit_cmd import bench_options, model_option, overrides_from_options
@@ -103,9 +103,11 @@ def batch_command(
         check_output(out, resume=resume, force=force, names=names)
         with Stop() as stop:
             try:
+                tally = Tally(found, spec)
                 with progress(len(found.files)) as tick:
-                    run_batch(found, settings, out, workers=workers, resume=resume, on_done=tick)
-                summary = summarise(found, out, spec)
+                    run_batch(found, settings, out, workers=workers, resume=resume,
+                              on_done=tick, on_record=tally.add)  # fmt: skip
+                summary = tally.summary(out)
                 written = write_results(out, found, spec, summary, settings)
                 if with_report:
                     from fitkit.report.batch_page import write_batch_report

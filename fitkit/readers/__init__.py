@@ -7,11 +7,14 @@ table (anything else). :func:`inspect_sweep` also says how the file was read.
 
 from __future__ import annotations
 
+import os
+import stat
 from pathlib import Path
 
 from fitkit.errors import InputError
 from fitkit.readers.layout import ColumnInfo, Reading
 from fitkit.readers.table import read_table
+from fitkit.readers.text import read_head
 from fitkit.readers.touchstone import looks_like_touchstone, read_touchstone, write_touchstone
 from fitkit.sweep import Sweep
 
@@ -100,24 +103,36 @@ def inspect_sweep(
         As :func:`read_sweep`.
     """
     p = Path(path)
-    if p.is_dir():
+    _refuse_other_than_file(p)
+    head = read_head(p)
+    if looks_like_touchstone(p, head.head):
+        if parameter is None and columns and columns.get("kind") in ("s11", "s21"):
+            parameter = columns["kind"]
+        return read_touchstone(p, parameter=parameter, head=head)
+    if parameter is not None:
+        columns = {**(columns or {}), "kind": parameter.lower()}
+    return read_table(p, columns=columns, duplicates=duplicates, head=head)
+
+
+def _refuse_other_than_file(p: Path) -> None:
+    """Refuse a folder, a missing path or a pipe before it is opened (one ``stat``)."""
+    try:
+        mode = os.stat(p).st_mode
+    except (FileNotFoundError, NotADirectoryError):
+        raise InputError(
+            "no such file", remedy="check the path to the sweep file", path=p
+        ) from None
+    except OSError:
+        return  # opening it says why it cannot be read
+    if stat.S_ISDIR(mode):
         raise InputError(
             "this is a folder, not a sweep file",
             remedy="name a file in it, or fit the whole folder with 'fitkit batch'",
             path=p,
         )
-    if not p.exists():
-        raise InputError("no such file", remedy="check the path to the sweep file", path=p)
-    if not p.is_file():
+    if not stat.S_ISREG(mode):
         raise InputError(
             "this is not a regular file (a pipe or a device?)",
             remedy="save the sweep to a file first, then read that file",
             path=p,
         )
-    if looks_like_touchstone(p):
-        if parameter is None and columns and columns.get("kind") in ("s11", "s21"):
-            parameter = columns["kind"]
-        return read_touchstone(p, parameter=parameter)
-    if parameter is not None:
-        columns = {**(columns or {}), "kind": parameter.lower()}
-    return read_table(p, columns=columns, duplicates=duplicates)

@@ -15,13 +15,19 @@ from pathlib import Path
 
 from fitkit.errors import InputError
 
-#: How much of a file is read to sniff its layout; the bulk is parsed by pandas.
+#: How much of a file is read at first; a sweep file of up to this size is read, hashed
+#: and parsed from these bytes alone (a larger one is parsed from the file by pandas).
 HEAD_BYTES = 256 * 1024
 #: A head is read further (doubling) until it holds this many lines or this many bytes,
 #: so a long comment or metadata line before the table does not hide the table.
 _HEAD_LINES = 40
 _HEAD_LIMIT = 64 * 1024 * 1024
+#: How much of the start of a file is checked for binary data.
+_BINARY_SAMPLE = 65536
 _CONTROL = re.compile(r"[\x01-\x08\x0e-\x1f]")
+#: every byte but the control characters of ``_CONTROL``: deleting these from ASCII
+#: bytes leaves the control characters, counted in one pass
+_NOT_CONTROL = bytes(b for b in range(256) if not (1 <= b <= 8 or 14 <= b <= 31))
 
 
 @dataclass(frozen=True)
@@ -39,12 +45,16 @@ class FileText:
         True when ``head`` is the whole file.
     notes : list of str
         What the decoding had to do, for the user.
+    sha256 : str or None
+        The SHA-256 of the file's bytes when ``head`` is the whole file (so the file is
+        read once), else None.
     """
 
     encoding: str
     head: str
     complete: bool
     notes: list
+    sha256: str | None = None
 
 
 def read_head(path: Path, size: int = HEAD_BYTES, *, grow: bool = True) -> FileText:
@@ -97,11 +107,29 @@ def read_head(path: Path, size: int = HEAD_BYTES, *, grow: bool = True) -> FileT
             remedy="export the sweep again as plain text (UTF-8)",
             path=path,
         )
-    _refuse_binary(head, path)
+    if raw.isascii():
+        _refuse_binary_ascii(raw, path)
+    else:
+        _refuse_binary(head, path)
     if not complete:
         cut = head.rfind("\n")
         head = head[: cut + 1] if cut >= 0 else head
-    return FileText(encoding=encoding, head=head, complete=complete, notes=notes)
+    sha = hashlib.sha256(raw).hexdigest() if complete else None
+    return FileText(encoding=encoding, head=head, complete=complete, notes=notes, sha256=sha)
+
+
+def split_lines(text: str) -> list[str]:
+    r"""The lines of ``text``, broken at CRLF, CR or LF only (not at the other characters
+    :meth:`str.splitlines` breaks at).
+
+    Examples
+    --------
+    >>> split_lines("a\r\nb\rc\n")
+    ['a', 'b', 'c', '']
+    """
+    if "\r" in text:
+        text = text.replace("\r\n", "\n").replace("\r", "\n")
+    return text.split("\n")
 
 
 def read_all(path: Path, encoding: str) -> str:
@@ -144,10 +172,21 @@ def _decode(raw: bytes, encoding: str, complete: bool) -> str | None:
 
 def _refuse_binary(text: str, path: Path) -> None:
     """Text files hold no NUL and few control characters; anything else is not a sweep."""
-    sample = text[:65536]
-    controls = len(_CONTROL.findall(sample))
-    if "\x00" in sample or controls > max(8, len(sample) // 100):
-        line = sample[: sample.find("\x00")].count("\n") + 1 if "\x00" in sample else None
+    sample = text[:_BINARY_SAMPLE]
+    _judge_controls(sample, len(_CONTROL.findall(sample)), path)
+
+
+def _refuse_binary_ascii(raw: bytes, path: Path) -> None:
+    """:func:`_refuse_binary` for ASCII bytes (one character a byte), counted in C."""
+    sample = raw[:_BINARY_SAMPLE]
+    _judge_controls(sample, len(sample.translate(None, _NOT_CONTROL)), path)
+
+
+def _judge_controls(sample: str | bytes, controls: int, path: Path) -> None:
+    nul = "\x00" if isinstance(sample, str) else b"\x00"
+    if nul in sample or controls > max(8, len(sample) // 100):
+        newline = "\n" if isinstance(sample, str) else b"\n"
+        line = sample[: sample.find(nul)].count(newline) + 1 if nul in sample else None
         raise InputError(
             "the file holds binary data, not a text sweep",
             remedy="export the sweep from the instrument as CSV or Touchstone text",

@@ -68,28 +68,12 @@ def tidy_sweep(
         repeated frequencies when ``duplicates="refuse"``.
     """
     notes = list(notes)
-    empty = np.isnan(freq_hz) | np.isnan(values)
-    if isinstance(lines, (int, np.integer)) and (empty.any() or freq_hz.size < 2):
+    if isinstance(lines, (int, np.integer)) and freq_hz.size < 2:
         lines = np.arange(freq_hz.size) + lines
-    if empty.any():
-        # blank lines at the end of a file go quietly; any row with a number in it is said
-        written = np.flatnonzero(~(np.isnan(freq_hz) & np.isnan(values)))
-        last = written[-1] if written.size else -1
-        inner = np.flatnonzero(empty[: last + 1])
-        if inner.size:
-            notes.append(f"dropped {inner.size} blank/NaN row(s) ({line_list(lines[inner])})")
-        freq_hz, values, lines = freq_hz[~empty], values[~empty], lines[~empty]
-        sigma = None if sigma is None else sigma[~empty]
+    if not (np.isfinite(freq_hz).all() and np.isfinite(values).all()):
+        freq_hz, values, lines, sigma = _drop_blank_rows(freq_hz, values, lines, sigma, path, notes)
     if sigma is not None:
         _refuse_bad_sigma(sigma, lines, path, sigma_column)
-    bad = ~np.isfinite(freq_hz) | ~np.isfinite(values)
-    if bad.any():
-        raise InputError(
-            "an infinite value (an overload or a missing reading?)",
-            remedy="delete or repair the row",
-            path=path,
-            line=_line(lines, int(np.argmax(bad))),
-        )
     _refuse_beyond_readings(freq_hz, values, lines, path, freq_column)
     if freq_hz.size < 2:
         raise InputError(
@@ -99,7 +83,10 @@ def tidy_sweep(
             path=path,
             line=int(lines[0]) if lines.size else None,
         )
+    sigmas = {"sigma": sigma, "sigma_relative": sigma_relative}
     steps = np.diff(freq_hz)
+    if steps.size and steps.min() > 0:  # ascending and unique, the common case
+        return _sweep(freq_hz, values, path, kind, recorded_in_db, metadata, notes, sha256, sigmas)
     if (steps < 0).any():
         if (steps <= 0).all():
             notes.append("sorted a descending sweep")
@@ -115,6 +102,37 @@ def tidy_sweep(
         freq_hz, values, sigma = _merge(
             freq_hz, values, sigma, lines, repeated, duplicates, path, notes
         )
+    sigmas["sigma"] = sigma
+    return _sweep(freq_hz, values, path, kind, recorded_in_db, metadata, notes, sha256, sigmas)
+
+
+def _drop_blank_rows(freq_hz, values, lines, sigma, path, notes) -> tuple:
+    """Drop rows with a NaN (said in a note, except blank lines at the end of the file);
+    refuse an infinite value."""
+    empty = np.isnan(freq_hz) | np.isnan(values)
+    if isinstance(lines, (int, np.integer)):
+        lines = np.arange(freq_hz.size) + lines
+    if empty.any():
+        # blank lines at the end of a file go quietly; any row with a number in it is said
+        written = np.flatnonzero(~(np.isnan(freq_hz) & np.isnan(values)))
+        last = written[-1] if written.size else -1
+        inner = np.flatnonzero(empty[: last + 1])
+        if inner.size:
+            notes.append(f"dropped {inner.size} blank/NaN row(s) ({line_list(lines[inner])})")
+        freq_hz, values, lines = freq_hz[~empty], values[~empty], lines[~empty]
+        sigma = None if sigma is None else sigma[~empty]
+    bad = ~np.isfinite(freq_hz) | ~np.isfinite(values)
+    if bad.any():
+        raise InputError(
+            "an infinite value (an overload or a missing reading?)",
+            remedy="delete or repair the row",
+            path=path,
+            line=_line(lines, int(np.argmax(bad))),
+        )
+    return freq_hz, values, lines, sigma
+
+
+def _sweep(freq_hz, values, path, kind, recorded_in_db, metadata, notes, sha256, sigmas) -> Sweep:
     return Sweep(
         freq_hz,
         values,
@@ -124,8 +142,7 @@ def tidy_sweep(
         metadata=dict(metadata),
         notes=notes,
         sha256=sha256,
-        sigma=sigma,
-        sigma_relative=sigma_relative,
+        **sigmas,
     )
 
 
@@ -186,6 +203,24 @@ MAX_READING = 1e100
 
 
 def _refuse_beyond_readings(freq_hz, values, lines, path, freq_column) -> None:
+    if freq_hz.size and (freq_hz.min() <= 0 or freq_hz.max() > MAX_FREQ_HZ):
+        _refuse_frequency(freq_hz, lines, path, freq_column)
+    size = np.abs(values)
+    if not size.size:
+        return
+    largest = float(size.max())
+    if largest > MAX_READING or 0 < largest < 1 / MAX_READING:
+        what = "beyond 1e100" if largest > MAX_READING else "the largest, and all are below 1e-100"
+        raise InputError(
+            f"the reading {largest:g} is {what}: far outside anything an instrument writes",
+            remedy="check the measured column's unit and that the right column is read "
+            "(--column mag=NAME:UNIT)",
+            path=path,
+            line=_line(lines, int(np.argmax(size))),
+        )
+
+
+def _refuse_frequency(freq_hz, lines, path, freq_column) -> None:
     for bad, message, remedy in (
         (
             freq_hz <= 0,
@@ -207,19 +242,6 @@ def _refuse_beyond_readings(freq_hz, values, lines, path, freq_column) -> None:
                 line=_line(lines, i),
                 column=freq_column,
             )
-    size = np.abs(values)
-    if not size.size:
-        return
-    largest = float(size.max())
-    if largest > MAX_READING or 0 < largest < 1 / MAX_READING:
-        what = "beyond 1e100" if largest > MAX_READING else "the largest, and all are below 1e-100"
-        raise InputError(
-            f"the reading {largest:g} is {what}: far outside anything an instrument writes",
-            remedy="check the measured column's unit and that the right column is read "
-            "(--column mag=NAME:UNIT)",
-            path=path,
-            line=_line(lines, int(np.argmax(size))),
-        )
 
 
 def _line(lines: np.ndarray | int, row: int) -> int:

@@ -24,7 +24,7 @@ import numpy as np
 
 from fitkit.errors import InputError
 from fitkit.readers.layout import ColumnInfo, Reading
-from fitkit.readers.text import file_sha256, read_all, read_head
+from fitkit.readers.text import FileText, file_sha256, read_all, read_head
 from fitkit.readers.tidy import tidy_sweep
 
 _FREQ_UNITS = {"hz": 1.0, "khz": 1e3, "mhz": 1e6, "ghz": 1e9}
@@ -32,6 +32,7 @@ _PARAMETERS = ("s", "y", "z", "h", "g")
 _FORMATS = ("ri", "ma", "db")
 _FIRST_PART = {"ri": ("real", "ratio"), "ma": ("mag", "ratio"), "db": ("mag", "dB")}
 _SECOND_PART = {"ri": ("imag", "ratio"), "ma": ("phase", "deg"), "db": ("phase", "deg")}
+_OPENING = 4096  # how much of a file's start shows whether it is Touchstone text
 _OPTION = re.compile(r"#(\s+(hz|khz|mhz|ghz|s|y|z|h|g|db|ma|ri|r\s+\S+))*\s*", re.I)
 
 
@@ -60,15 +61,19 @@ class _File:
     notes: list = field(default_factory=list)
 
 
-def looks_like_touchstone(path: Path) -> bool:
-    """True for a ``.sNp`` or ``.ts`` name, or text opening with an option line or [Version]."""
+def looks_like_touchstone(path: Path, head: str | None = None) -> bool:
+    """True for a ``.sNp`` or ``.ts`` name, or text opening with an option line or [Version].
+
+    ``head`` is the start of the file as text, when already read.
+    """
     if re.fullmatch(r"\.(s\d+p|ts)", path.suffix.lower()):
         return True
-    try:
-        head = read_head(path, 4096, grow=False).head
-    except InputError:
-        return False
-    for line in head.splitlines():
+    if head is None:
+        try:
+            head = read_head(path, _OPENING, grow=False).head
+        except InputError:
+            return False
+    for line in head[:_OPENING].splitlines():
         text = line.split("!", 1)[0].strip()
         if text:
             return text.lower().startswith("[version]") or (
@@ -77,7 +82,9 @@ def looks_like_touchstone(path: Path) -> bool:
     return False
 
 
-def read_touchstone(path: Path, *, parameter: str | None = None) -> Reading:
+def read_touchstone(
+    path: Path, *, parameter: str | None = None, head: FileText | None = None
+) -> Reading:
     """Read a one- or two-port Touchstone file.
 
     Parameters
@@ -86,6 +93,9 @@ def read_touchstone(path: Path, *, parameter: str | None = None) -> Reading:
         The file.
     parameter : {"s21", "s11"}, optional
         Which S parameter to read; S21 by default for two-port files, S11 for one-port.
+    head : FileText, optional
+        The start of the file as :func:`fitkit.readers.text.read_head` read it, when
+        already read (a small file is then not read again).
 
     Raises
     ------
@@ -93,8 +103,9 @@ def read_touchstone(path: Path, *, parameter: str | None = None) -> Reading:
         For anything the standard does not allow, a truncated data block, Z/Y/H/G
         two-port data, or more than two ports.
     """
-    encoding = read_head(path).encoding
-    lines = read_all(path, encoding).splitlines()
+    head = head or read_head(path)
+    text = head.head if head.complete else read_all(path, head.encoding)
+    lines = text.splitlines()
     state = _parse(lines, path)
     opts = state.options
     ports = state.ports
@@ -146,7 +157,7 @@ def read_touchstone(path: Path, *, parameter: str | None = None) -> Reading:
         notes=notes,
         duplicates="refuse",
         freq_column=1,
-        sha256=file_sha256(path),
+        sha256=head.sha256 or file_sha256(path),
     )
     first, second = _FIRST_PART[opts.format], _SECOND_PART[opts.format]
     unit = {"hz": "Hz", "khz": "kHz", "mhz": "MHz", "ghz": "GHz"}[opts.unit]

@@ -175,7 +175,7 @@ def batch_report(summary: dict, settings: dict, plots: dict, spec: Spec | None =
     Parameters
     ----------
     summary : dict
-        What :func:`fitkit.batch.summarise` returns (or ``results.json`` holds).
+        What :meth:`fitkit.batch_results.Tally.summary` returns (or ``results.json`` holds).
     settings : dict
         The fit settings of the batch.
     plots : dict
