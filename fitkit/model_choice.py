@@ -41,12 +41,17 @@ _WORDS = {
 }
 
 
+def criterion(r: np.ndarray, k: int) -> float:
+    """``n ln(RSS / n) + k ln n`` of the residuals ``r`` with ``k`` free parameters."""
+    n = r.size
+    rss = max(float(np.sum(r**2)), 1e-300 * n)
+    return n * math.log(rss / n) + k * math.log(n)
+
+
 def bic(problem: FitProblem, first: FirstPass, idx) -> float:
     """The criterion with the noise level unknown, on the points ``idx``."""
     r = problem.residual_values(first.values, idx, Noise(first.domain, UNIT_NOISE, UNIT_NOISE))
-    n = r.size
-    rss = max(float(np.sum(r**2)), 1e-300 * n)
-    return n * math.log(rss / n) + len(first.free) * math.log(n)
+    return criterion(r, len(first.free))
 
 
 def choose_topology(sweep, setup, known, domain: str, keep_outliers: bool) -> tuple:
@@ -163,9 +168,7 @@ def _predicted_criterion(richer: FitProblem, first: FirstPass, extra: dict) -> f
     r = richer.residual_values(values, first.used, unit)
     jac = richer.jacobian(values, list(free), first.used, unit)
     step, *_ = np.linalg.lstsq(jac, -r, rcond=None)
-    n = r.size
-    rss = max(float(np.sum((r + jac @ step) ** 2)), 1e-300 * n)
-    return n * math.log(rss / n) + len(free) * math.log(n)
+    return criterion(r + jac @ step, len(free))
 
 
 def _with(problem: FitProblem, first: FirstPass) -> tuple:
@@ -219,14 +222,7 @@ def choose_noise_domain(problem: FitProblem, first: FirstPass, default: str) -> 
         domain = default
     if domain == first.domain:
         return first, evidence
-    if first.outliers.size:
-        # points judged far in the other domain are judged again in this one (noise in
-        # proportion to the reading makes the peak look wild to an even-noise fit)
-        every = first.moved(first.values, domain=domain)
-        every.used, every.outliers = np.arange(problem.sweep.points), first.outliers[:0]
-        every.outlier_reasons = []
-        return problem.drop_outliers(problem.refine(every, first.values)), evidence
-    return problem.refine(first, first.values, domain=domain), evidence
+    return problem.in_domain(first, domain), evidence
 
 
 def add_bench_terms(problem: FitProblem, first: FirstPass) -> tuple:
@@ -289,8 +285,7 @@ def resonance_evidence(problem: FitProblem, first: FirstPass) -> float:
     r = np.concatenate([r.real, r.imag]) if np.iscomplexobj(r) else r
     if not np.all(np.isfinite(r)):
         return np.inf
-    n, k = r.size, 2 * (2 if np.iscomplexobj(d) else 1)
-    line = n * math.log(max(float(np.sum(r**2)), 1e-300 * n) / n) + k * math.log(n)
+    line = criterion(r, 2 * (2 if np.iscomplexobj(d) else 1))
     return line - bic(problem, first, idx)
 
 

@@ -110,11 +110,6 @@ class FitProblem:
             for k, v in values.items()
         }
 
-    def state(self, values: dict) -> tuple:
-        clipped = self.clipped(values)
-        f0, q, scale, extras, _ = circuit_state(self, clipped)
-        return f0, q, scale, extras, clipped["gain"], clipped
-
     def at(self, idx) -> tuple:
         """Frequencies and bench coefficients at the points ``idx`` (every point: no
         copy; the last subset is kept, as the passes ask for the same one many times)."""
@@ -125,7 +120,8 @@ class FitProblem:
         return self._subset[1]
 
     def model(self, values: dict, idx=slice(None)) -> np.ndarray:
-        f0, q, scale, extras, gain, clipped = self.state(values)
+        clipped = self.clipped(values)
+        f0, q, scale, extras, _ = circuit_state(self, clipped)
         f, coefficients = self.at(idx)
         m = predicted(
             self.setup,
@@ -135,7 +131,7 @@ class FitProblem:
             scale,
             topology=self.topology,
             extras=extras,
-            gain=gain,
+            gain=clipped["gain"],
             coefficients=coefficients,
         )
         return self.bench.apply(m, f, clipped) if self.bench.terms else m
@@ -277,10 +273,7 @@ class FitProblem:
             Dfun=lambda x: self.jacobian(at(x), names, idx, noise),
             full_output=True,
         )
-        found = dict(values)
-        for name, value in zip(names, x):
-            low, high = self.bounds.get(name, (-np.inf, np.inf))
-            found[name] = min(max(float(value), low), high)
+        found = self.clipped({**values, **{n: float(v) for n, v in zip(names, x)}})
         fun = info["fvec"]
         return found, float(np.sum(fun**2) / max(fun.size - len(names), 1))
 
@@ -352,6 +345,24 @@ class FitProblem:
             values, free, first.used, Noise(domain, UNIT_NOISE, UNIT_NOISE)
         )
         return first.moved(found, free, redchi, domain)
+
+    def in_domain(self, first: FirstPass, domain: str) -> FirstPass:
+        """``first`` refitted with residuals in another noise domain. Points it left out
+        are judged again in the new one (noise in proportion to the reading makes the
+        peak look wild to an even-noise fit)."""
+        if not first.outliers.size:
+            return self.refine(first, first.values, domain=domain)
+        every = FirstPass(
+            first.values,
+            first.free,
+            first.redchi,
+            np.arange(self.sweep.points),
+            first.outliers[:0],
+            first.start,
+            first.null_dirs,
+            domain,
+        )
+        return self.drop_outliers(self.refine(every, first.values))
 
     def drop_outliers(self, first: FirstPass) -> FirstPass:
         """Points far from the first fit by a robust measure, and with little leverage,
