@@ -145,12 +145,12 @@ class FitProblem:
         if domain == "additive":
             r = m - d
             return (r.real, r.imag) if np.iscomplexobj(d) else (r.real, None)
-        with np.errstate(divide="ignore", invalid="ignore"):
+        with np.errstate(all="ignore"):  # (a wild trial model may overflow: inf, judged so)
             ratio = m / d
-        if np.iscomplexobj(d):
-            lr = np.log(ratio)
-            return lr.real, lr.imag
-        return np.log(np.abs(ratio)), None
+            if np.iscomplexobj(d):
+                lr = np.log(ratio)
+                return lr.real, lr.imag
+            return np.log(np.abs(ratio)), None
 
     def scaled_residual(self, values: dict, idx, domain: str) -> tuple:
         """The raw residual over each point's spread (as it is when all are alike)."""
@@ -377,6 +377,8 @@ class FitProblem:
         flagged = np.zeros(idx.size, dtype=bool)
         size = np.zeros(idx.size)
         for comp in [a] if b is None else [a, b]:
+            if not np.all(np.isfinite(comp)):  # a fit this far off calls no point wild
+                continue
             mad = 1.4826 * np.median(np.abs(comp - np.median(comp)))
             if mad > 0:
                 dev = np.abs(comp - np.median(comp)) / mad

@@ -8,6 +8,7 @@ import math
 import numpy as np
 import pytest
 
+from fitkit.circuits import TWO_PI
 from fitkit.errors import FitError, SetupError
 from fitkit.fitting import fit_sweep
 from fitkit.setups import Setup
@@ -197,3 +198,21 @@ def test_outliers_judged_in_the_noise_model_chosen(seed):
     fit = fit_sweep(sweep, setup)
     assert fit.stats.noise.startswith("relative"), fit.stats.noise
     assert fit.stats.outliers_hz == [float(clean.freq_hz[glitch])]
+
+
+def test_a_sweep_misread_a_thousandfold_is_refused_quietly(tmp_path):
+    """Decimal commas misread as thousands commas: frequencies and dB readings a thousand
+    times too large (gains of -700 to -22,000 dB, most of them read as exactly zero).
+    The trial models overflow on the way; the answer is the clear refusal alone (no
+    numerical warning: pytest turns any into an error)."""
+    from fitkit.readers import read_sweep
+
+    rng = np.random.default_rng(7)
+    f = np.geomspace(80e3, 200e3, 37)
+    z = 3.3 + 1j * (TWO_PI * f * 680e-6 - 1 / (TWO_PI * f * 2.2e-9))
+    gain_db = 20 * np.log10(np.abs(47.0 / (47.0 + z)) * (1 + 0.01 * rng.normal(size=f.size)))
+    rows = [f"{round(a * 1e3)},{round(b * 1e3)}" for a, b in zip(f / 1e3, gain_db)]
+    path = tmp_path / "misread.csv"
+    path.write_text("freq (kHz),gain (dB)\n" + "\n".join(rows) + "\n")
+    with pytest.raises(FitError):
+        fit_sweep(read_sweep(path), Setup("divider", "ratio", sense_ohm=47.0), topology="auto")

@@ -298,3 +298,15 @@ def test_which_lines_are_rows_of_numbers(line, delimiter, decimal, cells):
     from fitkit.readers.cells import numeric_fields
 
     assert numeric_fields(line, delimiter, decimal) == cells
+
+
+def test_semicolon_file_whose_every_cell_could_be_thousands(tmp_path):
+    # every cell has three digits after its one comma, so each reads as a thousands group
+    # or a decimal comma; under ';' (the delimiter of decimal-comma locales; common
+    # practice) decimal commas win: 80 kHz and -21.589 dB, not 80 MHz and -21589 dB
+    rows = [f"{80 + 2 * i},{i * 37 % 1000:03d};-21,{589 - i:03d}" for i in range(12)]
+    path = write(tmp_path, "Frequency [kHz];Gain [dB]\n" + "\n".join(rows) + "\n", name="eu.csv")
+    reading = inspect_sweep(path)
+    assert reading.details["decimal mark"] == "comma"
+    assert reading.sweep.freq_hz[0] == pytest.approx(80e3, rel=1e-12)
+    assert reading.sweep.values[0] == pytest.approx(10 ** (-21.589 / 20), rel=1e-12)

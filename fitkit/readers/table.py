@@ -221,18 +221,25 @@ def _row_window(lines: list[str]) -> list[str]:
 
 
 def _count_votes(lines: list[str]) -> tuple:
-    best, best_count = None, 0
+    """The dialect under which most lines are rows of numbers, and that count. A tie goes
+    to the dialect whose numbers need no thousands commas or prefixes (under ';',
+    '80,000;-21,589' is far likelier decimal commas than eighty thousand and a gain of
+    -21589 dB), then to the one tried first."""
+    best, best_score = None, (0, False)
     for delimiter, decimal in _DIALECTS:
         if delimiter is None:
             split = [ln for ln in lines if len(ln.split()) > 1]
         else:
             split = [ln for ln in lines if delimiter in ln]
-        if len(split) <= best_count:  # cannot win: ties go to the dialect tried first
+        if len(split) < best_score[0]:  # cannot reach the count
             continue
         count = sum(1 for ln in split if numeric_fields(ln, delimiter, decimal))
-        if count > best_count:
-            best, best_count = (delimiter, decimal), count
-    return best, best_count
+        if not count or count < best_score[0]:
+            continue
+        score = (count, not text_forms(split, delimiter, decimal))
+        if score > best_score:
+            best, best_score = (delimiter, decimal), score
+    return best, best_score[0]
 
 
 def _all_units(cells: list[str]) -> bool:
