@@ -5,7 +5,9 @@ the CPU time of ``fit_sweep`` (uncertainties, checks and all) beside a bare
 ``scipy.optimize.least_squares`` solve of the same series circuit from the same
 closed-form start with an analytic Jacobian, the two interleaved so that a busy machine
 slows both alike; the ratio is the figure the speed targets are stated in. ``auto`` is
-reported against the series fit of the same sweep.
+reported against the series fit of the same sweep. The "lmfit floor" is one
+``lmfit.minimize`` of the same problem from the same start with fitkit's residual and
+closed-form Jacobian and nothing else: what any fit with lmfit as its engine pays.
 
 ``measure(points, model)`` is the function other benchmark scripts call.
 """
@@ -26,6 +28,8 @@ sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 from fitkit.circuits import TWO_PI, series_rlc  # noqa: E402
 from fitkit.estimate import estimate_start  # noqa: E402
 from fitkit.fitting import fit_sweep  # noqa: E402
+from fitkit.noise import Noise  # noqa: E402
+from fitkit.problem import UNIT_NOISE, FitProblem  # noqa: E402
 from fitkit.topologies import SERIES  # noqa: E402
 from tests.synthetic import SETUPS, make_sweep  # noqa: E402
 
@@ -62,6 +66,24 @@ def bare_solve(sweep, setup):
         return np.concatenate([cols.real, cols.imag])
 
     return least_squares(resid, x0, jac=jac, method="lm")
+
+
+def lmfit_floor(sweep, setup):
+    """One ``lmfit.minimize`` of the same series circuit from the same closed-form start,
+    with fitkit's own residual and closed-form Jacobian and nothing else (no checks, no
+    outlier step, no propagation): the least a fit with lmfit as its engine can cost.
+    Returns the call to time: the closed-form start, as :func:`bare_solve` counts it,
+    and the lmfit pass (the start's check of what the sweep determines is left out)."""
+    problem = FitProblem(sweep, setup, SERIES, {})
+    values, free, _ = problem.start_values(estimate_start(sweep, setup, SERIES))
+    unit = Noise("additive", UNIT_NOISE, UNIT_NOISE)
+    used = np.arange(sweep.points)
+
+    def call():
+        estimate_start(sweep, setup, SERIES)
+        return problem.lmfit_pass(values, free, used, unit, bounded=False)
+
+    return call
 
 
 def lmfit_overhead_ms(points: int, repeats: int = 30) -> tuple:
@@ -104,14 +126,17 @@ def _cpu_ms(func) -> float:
 def measure(points: int = 1001, model: str = "series", repeats: int = 30, setup_name=DEFAULT_SETUP):
     """Median CPU milliseconds of ``fit_sweep`` and of the bare solve, interleaved.
 
-    Returns a dict with ``fitkit_ms``, ``bare_ms`` and ``ratio`` (fitkit / bare); for a
+    Returns a dict with ``fitkit_ms``, ``bare_ms`` and ``ratio`` (fitkit / bare),
+    ``lmfit_ms`` and ``lmfit_ratio`` (:func:`lmfit_floor`, and it over bare); for a
     model other than ``series`` also ``series_ms`` and ``ratio_to_series``.
     """
     setup = SETUPS[setup_name]
     sweep = make_sweep(setup, seed=1, points=points)
-    runs = {"fitkit": [], "bare": [], "series": []}
+    runs = {"fitkit": [], "bare": [], "lmfit": [], "series": []}
+    floor = lmfit_floor(sweep, setup)
     for _ in range(repeats):
         runs["bare"].append(_cpu_ms(lambda: bare_solve(sweep, setup)))
+        runs["lmfit"].append(_cpu_ms(floor))
         runs["fitkit"].append(_cpu_ms(lambda: fit_sweep(sweep, setup, topology=model)))
         if model != "series":
             runs["series"].append(_cpu_ms(lambda: fit_sweep(sweep, setup, topology="series")))
@@ -120,6 +145,8 @@ def measure(points: int = 1001, model: str = "series", repeats: int = 30, setup_
         "fitkit_ms": out["fitkit"],
         "bare_ms": out["bare"],
         "ratio": out["fitkit"] / out["bare"],
+        "lmfit_ms": out["lmfit"],
+        "lmfit_ratio": out["lmfit"] / out["bare"],
     }
     if model != "series":
         result["series_ms"] = out["series"]
@@ -136,7 +163,7 @@ def main() -> None:
     print("CPU time, medians of interleaved runs; bare = least_squares, analytic Jacobian")
     print(
         f"{'setup':<22} {'points':>6} {'model':>7} {'fitkit ms':>10} {'bare ms':>8} "
-        f"{'ratio':>6} {'vs series':>9}"
+        f"{'ratio':>6} {'vs series':>9} {'lmfit floor':>12}"
     )
     for name in names:
         for points in (201, 1001):
@@ -145,7 +172,8 @@ def main() -> None:
                 vs = f"{m['ratio_to_series']:>9.1f}" if "ratio_to_series" in m else f"{'':>9}"
                 print(
                     f"{name:<22} {points:>6} {model:>7} {m['fitkit_ms']:>10.2f} "
-                    f"{m['bare_ms']:>8.2f} {m['ratio']:>6.1f} {vs}",
+                    f"{m['bare_ms']:>8.2f} {m['ratio']:>6.1f} {vs} "
+                    f"{m['lmfit_ms']:>6.2f} {m['lmfit_ratio']:>4.1f}x",
                     flush=True,
                 )
 

@@ -13,7 +13,8 @@ PARTS, comma-separated, from:
   outside it, and the memory of the fitting process as sweeps go by; then as the
   command, a fresh process with 1 and 2 workers, for the start-up and the wall time;
 - ``points``: the CPU time of one ``--model series`` fit against the number of points
-  (101 to 100,000), per point, and the fixed cost extrapolated to 0 points;
+  (101 to 100,000), per point, and the fixed cost: the line through 101 and 1,001
+  points, at 0 points;
 - ``fit``: the fit against a bare least-squares solve, from ``benchmarks/fit_time.py``'s
   ``measure(points, model)``.
 
@@ -281,12 +282,21 @@ def points(quick: bool) -> None:
             for _ in range(repeats)
         ))  # fmt: skip
         row(f"{n:,} points", f"{ms[-1]:.2f}", f"{ms[-1] / n * 1e3:.2f} us", "", "linear")
-    # weighted straight line through (points, ms), each size counting alike (weight 1/ms)
-    x, y = np.array(sizes, dtype=float), np.array(ms)
-    design = np.column_stack([np.ones_like(x), x]) / y[:, None]
-    fixed, slope = np.linalg.lstsq(design, np.ones_like(y), rcond=None)[0]
-    row("fixed cost (extrapolated to 0)", f"{fixed:.2f}", f"{slope * 1e3:.2f} us", "",
+    # the fixed cost is what the line through the two small sizes leaves at 0 points (a
+    # line through all four would let the large sizes' cache effects pull it down)
+    slope = (ms[1] - ms[0]) / (sizes[1] - sizes[0])
+    fixed = ms[0] - slope * sizes[0]
+    row("fixed cost (101 to 1,001, at 0)", f"{fixed:.2f}", f"{slope * 1e3:.2f} us", "",
         f"<= 1 ms: {met(fixed <= 1.0)}")  # fmt: skip
+    import fit_time
+
+    floor = []
+    for n in sizes[:2]:
+        call = fit_time.lmfit_floor(make_sweep(setup, seed=3, points=n), setup)
+        floor.append(1e3 * statistics.median(cpu_of(call) for _ in range(60)))
+    slope = (floor[1] - floor[0]) / (sizes[1] - sizes[0])
+    row("  the same for the lmfit floor", f"{floor[0] - slope * sizes[0]:.2f}",
+        f"{slope * 1e3:.2f} us", "", "(one lmfit.minimize, no checks)")  # fmt: skip
 
 
 def fit_ratios(quick: bool) -> None:
@@ -303,6 +313,9 @@ def fit_ratios(quick: bool) -> None:
         series[n] = got["fitkit_ms"]
         row(f"series, {n:,} points", f"{got['fitkit_ms']:.2f} ms", f"{got['bare_ms']:.2f} ms",
             f"{got['ratio']:.1f}x", f"<= 2.0x: {met(got['ratio'] <= 2.0)}")  # fmt: skip
+        row("  lmfit floor: one lmfit.minimize", f"{got['lmfit_ms']:.2f} ms",
+            f"{got['bare_ms']:.2f} ms", f"{got['lmfit_ratio']:.1f}x",
+            "(no checks at all)")  # fmt: skip
     got = measure(1001, "auto")
     ratio = got["fitkit_ms"] / series[1001]
     row("auto, 1,001 points, vs series", f"{got['fitkit_ms']:.2f} ms", f"{series[1001]:.2f} ms",
