@@ -301,10 +301,12 @@ def resonance_side(sweep: Sweep, setup: Setup, topology: Topology, strict: bool 
     ok = np.isfinite(t) & (t > 0)  # (noise can lift a reflection above 1: no power there)
     if ok.sum() < 5:
         return None
+    from scipy.ndimage import median_filter  # (a fit's import, not the command line's)
+
     t = t[ok]
-    width = max(3, t.size // 20) | 1
-    padded = np.pad(t, width // 2, mode="edge")
-    smooth = np.median(np.lib.stride_tricks.sliding_window_view(padded, width), axis=1)
+    # the running median, the ends padded with the end values; in C, as a window that
+    # grows with the sweep would make it cost as the square of the points in numpy
+    smooth = median_filter(t, size=max(3, t.size // 20) | 1, mode="nearest")
     lowest = int(np.argmin(smooth))
     margin = 1 if strict else max(2, t.size // 20)
     if lowest >= t.size - margin:

@@ -87,6 +87,7 @@ class FitProblem:
         self.spread = None if sweep.sigma is None else sweep.sigma / np.median(sweep.sigma)
         self.coefficients = setup.coefficients(self.f)
         self._subset = (None, None)
+        self._last_model = (None, None, None)  # (values, points, reading): see model()
         # generous bounds keep a wandering candidate model finite; a fit that ends on
         # one is reported (values at a bound are not trusted)
         lo, hi = math.log(self.f[0]), math.log(self.f[-1])
@@ -120,6 +121,19 @@ class FitProblem:
         return self._subset[1]
 
     def model(self, values: dict, idx=slice(None)) -> np.ndarray:
+        """The reading at the points ``idx``. The last one is kept (read-only): the
+        checks on a finished pass ask for the same values and points about ten times."""
+        whole = isinstance(idx, slice) or idx.size == self.f.size
+        key = (tuple(values.items()), None if whole else idx)
+        last_key, last_idx, reading = self._last_model
+        if key[0] == last_key and key[1] is last_idx:
+            return reading
+        reading = self._evaluate(values, idx)
+        reading.flags.writeable = False
+        self._last_model = (key[0], key[1], reading)
+        return reading
+
+    def _evaluate(self, values: dict, idx) -> np.ndarray:
         clipped = self.clipped(values)
         f0, q, scale, extras, _ = circuit_state(self, clipped)
         f, coefficients = self.at(idx)
