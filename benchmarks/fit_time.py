@@ -105,7 +105,11 @@ def lmfit_overhead_ms(points: int, repeats: int = 30) -> tuple:
     runs = {"lmfit": [], "bare": []}
     for _ in range(repeats):
         runs["lmfit"].append(
-            _cpu_ms(lambda: lmfit.minimize(resid, params, method="leastsq", Dfun=lambda p: design.copy()))
+            _cpu_ms(
+                lambda: lmfit.minimize(
+                    resid, params, method="leastsq", Dfun=lambda p: design.copy()
+                )
+            )
         )
         runs["bare"].append(
             _cpu_ms(

@@ -21,6 +21,7 @@ import numpy as np
 
 from fitkit.adequacy import check_structure
 from fitkit.errors import FitError
+from fitkit.estimate import resonance_side
 from fitkit.noise import RELATIVE_EVIDENCE, Noise, relative_evidence
 from fitkit.nuisance import NEUTRAL, PARAMETER, applicable
 from fitkit.problem import UNIT_NOISE, FirstPass, FitProblem
@@ -61,12 +62,20 @@ def choose_topology(sweep, setup, known, domain: str, keep_outliers: bool) -> tu
     series circuit, each sqrt(f) loss its plain circuit) is first screened from the
     plainer one's fit (:func:`_screened_score`) and fitted only when it could win."""
     trials, failed, screened = {}, {}, {}
+    # a candidate whose reading still falls at an end has no resonance inside: refused
+    # before any search
+    beyond = {n: resonance_side(sweep, setup, TOPOLOGIES[n], strict=True) for n in _PLAIN}
     for name in _PLAIN:
         try:
             if name == "coil" and _screened(screened, trials, "series", TOPOLOGIES[name]):
                 continue
             problem = FitProblem(sweep, setup, TOPOLOGIES[name], known)
             problem.forced = False  # the model is being chosen, not imposed
+            if beyond[name]:
+                raise problem.outside_error(beyond[name], "the resonance")
+            # the series circuit is the only one fitted in full when the tank is refused
+            # (the coil is screened from it): its first solve may stand as the last
+            problem.may_keep_first = name == "series" and bool(beyond["tank"])
             # each candidate with the bench terms it earns: a circuit must not win by
             # mimicking a bench's delay or floor
             problem, first = add_bench_terms(

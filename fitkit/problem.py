@@ -79,7 +79,9 @@ class FitProblem:
         self.known = known
         self.bench = Bench(sweep, terms)
         self.forced = True  # the user named the model (not chosen among candidates)
-        self.may_keep_first = True  # the first pass may stand as the last (noise estimated)
+        #: the first solve runs on lmfit and may stand as the last pass: a model the user
+        #: named with the noise estimated, or the one circuit auto is sure to fit in full
+        self.may_keep_first = True
         self.f = sweep.freq_hz
         self.data = sweep.values
         # each point's own sigma over their median (None: all alike); every pass, with
@@ -311,7 +313,7 @@ class FitProblem:
         residual), straight on MINPACK otherwise. Both run the same Levenberg-Marquardt
         from the same point (lmfit given no bounds to map)."""
         one_sigma = noise.domain == "additive" or not self.sweep.is_complex
-        if not (self.forced and self.may_keep_first and one_sigma):
+        if not (self.may_keep_first and one_sigma):
             return (*self.quick_minimize(values, free, idx, noise), None)
         result = self.lmfit_pass(values, free, idx, noise, bounded=False)
         found = result.params.valuesdict()
@@ -324,12 +326,6 @@ class FitProblem:
 
     def first_pass(self, domain: str, keep_outliers: bool) -> FirstPass:
         """Start, identifiability, a fit with unit weights, outliers out and refit."""
-        if not self.forced:
-            # a candidate whose reading still falls at an end has no resonance inside:
-            # refused before any search
-            beyond = resonance_side(self.sweep, self.setup, self.topology, strict=True)
-            if beyond:
-                raise self.outside_error(beyond, "the resonance")
         start = estimate_start(self.sweep, self.setup, self.topology)
         self.check_inside(start.f0_hz, "the first estimate of the resonance")
         values, free, null_dirs = self.start_values(start)
@@ -393,9 +389,10 @@ class FitProblem:
         for comp in [a] if b is None else [a, b]:
             if not np.all(np.isfinite(comp)):  # a fit this far off calls no point wild
                 continue
-            mad = 1.4826 * np.median(np.abs(comp - np.median(comp)))
+            spread = np.abs(comp - np.median(comp))
+            mad = 1.4826 * np.median(spread)
             if mad > 0:
-                dev = np.abs(comp - np.median(comp)) / mad
+                dev = spread / mad
                 flagged |= dev > OUTLIER_LIMIT
                 size = np.maximum(size, dev)
         if not flagged.any() or flagged.sum() > _MAX_OUTLIER_SHARE * idx.size:
