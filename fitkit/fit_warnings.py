@@ -20,6 +20,7 @@ from scipy.stats import chi2
 
 from fitkit.adequacy import check_circle, check_structure
 from fitkit.estimate import dip_contrast
+from fitkit.probe_reading import probe_reading
 from fitkit.units import format_quantity
 
 MIN_POINTS_IN_BAND = 5
@@ -75,6 +76,7 @@ def fit_warnings(problem, result, redchi: float, q: dict, first, noise) -> list:
                 ("R", "Q", "bandwidth", "L", "C"),
             )
         )
+    out.extend(probe_reading(problem, first, result.params.valuesdict(), q))
     out.extend(_adequacy(problem, result, noise, used))
     domain_hint = _noise_domain_hint(problem, result, noise, used)
     if domain_hint:
