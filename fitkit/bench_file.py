@@ -6,7 +6,8 @@ A small TOML file (``fitkit-setup.toml`` in the sweep's folder is found by itsel
     arrangement = "divider"          # divider, across, impedance, reflection,
                                      # series-through, shunt-through
     source_resistance = "50"         # ohm, SI prefixes allowed: "4k7", "50 ohm"
-    sense_resistor = "47"            # divider: in series, the scope across it
+    sense_resistor = "47 +- 0.5"     # divider: in series, the scope across it; a fixture
+                                     # value may carry its standard uncertainty ("+- 1%")
     feed_resistor = "10k"            # across: feeds the circuit, the scope across it
     probe_capacitance = "15p"
     ratio_reference = "terminal"     # or "open-circuit" (source resistance in the loop)
@@ -166,7 +167,7 @@ def _check_values(data: dict, path: Path, prefix: str) -> None:
         for key, raw in data.get("bench", {}).items():
             where = f"[{prefix}bench] {key}"
             name, unit = _FIELDS[key]
-            value = _convert(name, unit, raw, what=where)
+            value, _ = _convert(name, unit, raw, what=where)
             if name in _CHOICES and value not in _CHOICES[name]:
                 raise SetupError(
                     f"{where} = {raw!r} is not one of the choices",
@@ -245,12 +246,14 @@ def build_setup(sweep: Sweep, file_values: dict | None, overrides: dict) -> Setu
     or values; ``None`` means "not given".
     """
     fields: dict = {}
+    uncertainty: dict = {}
     for key, raw in (file_values or {}).items():
         name, unit = _FIELDS[key]
-        fields[name] = _convert(name, unit, raw, what=f"{key} (setup file)")
+        fields[name], uncertainty[name] = _convert(name, unit, raw, what=f"{key} (setup file)")
     given = {name: raw for name, raw in overrides.items() if raw is not None}
     for name, raw in given.items():
-        fields[name] = check_override(name, raw)
+        fields[name], uncertainty[name] = check_override(name, raw)
+    fields["uncertainty"] = tuple((name, u) for name, u in uncertainty.items() if u)
     fields.setdefault("bench", DEFAULT_BENCH[sweep.kind])
     _refuse_unused(given, fields["bench"], sweep)
     if sweep.kind in ("s11", "s21") and "z0_ohm" not in fields:
@@ -283,15 +286,17 @@ def _refuse_unused(given: dict, bench: str, sweep: Sweep) -> None:
         )
 
 
-def check_override(name: str, raw):
-    """A command-line bench value in SI, checked as the setup file's are.
+def check_override(name: str, raw) -> tuple:
+    """A command-line bench value in SI and its standard uncertainty (0 when none is
+    given), checked as the setup file's are.
 
     Parameters
     ----------
     name : str
         The Setup field (``sense_ohm``, ``amplitude_vrms``, ...).
     raw : str or number
-        The value as typed.
+        The value as typed; a fixture value may carry its standard uncertainty,
+        ``"47+-0.5"``, ``"47 +- 1%"`` (``±`` works too).
 
     Raises
     ------
@@ -323,23 +328,41 @@ def known_values(file_known: dict | None, cli_known: tuple) -> dict:
     return out
 
 
-def _convert(name: str, unit: str | None, raw, *, what: str):
-    if unit == "amplitude":
-        value = parse_amplitude(raw)
-    elif unit is not None:
-        value = parse_quantity(raw, unit, what=what)
-    elif name == "relative":
-        if not isinstance(raw, bool):
+def _convert(name: str, unit: str | None, raw, *, what: str) -> tuple:
+    """(the value in SI, its standard uncertainty or 0)."""
+    if unit is None:
+        if name == "relative" and not isinstance(raw, bool):
             raise SetupError(
                 f"{what} must be true or false, not {raw!r}", remedy="write relative = true"
             )
-        return raw
-    else:
-        return str(raw)
+        return (raw if name == "relative" else str(raw)), 0.0
+    text, sep, u_text = str(raw).replace("\u00b1", "+-").partition("+-")
+    value = _parse(text, unit, what)
     low = "above 0" if name in _POSITIVE else "0 or more"
     if not math.isfinite(value) or (value <= 0 if name in _POSITIVE else value < 0):
         raise SetupError(
             f"{what} = {raw!r} must be a finite value {low}",
             remedy=f"give the value as measured, e.g. {_EXAMPLES[name]}",
         )
-    return value
+    if not sep:
+        return value, 0.0
+    share = u_text.strip().endswith("%")
+    try:
+        u = (
+            value * parse_quantity(u_text.strip()[:-1], "", what=what) / 100.0
+            if share
+            else _parse(u_text, unit, what)
+        )
+    except SetupError:
+        u = math.nan
+    if not (math.isfinite(u) and u >= 0):
+        raise SetupError(
+            f"{what} = {raw!r}: cannot read the standard uncertainty after '+-'",
+            remedy=f"write it in the value's unit or in %, e.g. {_EXAMPLES[name].split(' or ')[0]}"
+            f"+-1%",
+        )
+    return value, u
+
+
+def _parse(text: str, unit: str, what: str) -> float:
+    return parse_amplitude(text) if unit == "amplitude" else parse_quantity(text, unit, what=what)

@@ -22,7 +22,9 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 
+from fitkit.errors import FitkitError
 from fitkit.result import QUANTITIES, CircuitFit
+from fitkit.setups import Setup
 from fitkit.units import format_quantity
 
 #: |z| above this is a significant change (k = 2, about 95 % for a normal distribution)
@@ -91,12 +93,21 @@ class Side:
         The fit's warnings.
     doubtful : dict
         ``{quantity: why}`` for values the fit marks doubtful.
+    own : dict
+        ``{quantity: u}``, the sweep's own share of each uncertainty, where the setup
+        stated uncertainties of its fixture values (empty: all the sweep's).
+    bench : dict or None
+        The setup of a fitted side: two sides swept on the same bench share its fixture,
+        and its stated uncertainties then cancel in the change (to first order: a sense
+        resistor 1 % off scales L now and L then alike).
     """
 
     source: str
     values: dict
     warnings: tuple = ()
     doubtful: dict = field(default_factory=dict)
+    own: dict = field(default_factory=dict)
+    bench: dict | None = None
 
     def to_dict(self) -> dict:
         return {"source": self.source, "warnings": list(self.warnings), "doubtful": self.doubtful}
@@ -114,7 +125,8 @@ def side_of_fit(fit: CircuitFit, source: str) -> Side:
         for n, q in fit.quantities.items()
         if getattr(q, "doubtful", "")
     }
-    return Side(source, fit_values(fit), tuple(fit.stats.warnings), doubtful)
+    own = {n: q.u_sweep for n, q in fit.quantities.items() if q.u_sweep is not None}
+    return Side(source, fit_values(fit), tuple(fit.stats.warnings), doubtful, own, fit.setup)
 
 
 def compare(unit, reference) -> list[Change]:
@@ -127,11 +139,25 @@ def compare(unit, reference) -> list[Change]:
     """
     unit, reference = (x if isinstance(x, Side) else Side("", x) for x in (unit, reference))
     now, ref = unit.values, reference.values
+    if _same_bench(unit.bench, reference.bench):  # one fixture for both
+        now, ref = ({n: (v, side.own.get(n, u)) for n, (v, u) in side.values.items()}
+                    for side in (unit, reference))  # fmt: skip
     return [
         Change(name, *ref[name], *now[name], _doubt(name, unit, reference))
         for name in QUANTITIES
         if name in now and name in ref and ref[name][0]
     ]
+
+
+def _same_bench(a: dict | None, b: dict | None) -> bool:
+    """Whether two fitted sides name one bench (a saved fit holds lists where a fresh one
+    holds tuples: compared as Setups)."""
+    if a is None or b is None:
+        return False
+    try:
+        return Setup(**a) == Setup(**b)
+    except (TypeError, FitkitError):
+        return False
 
 
 def _doubt(name: str, unit: Side, reference: Side) -> str:

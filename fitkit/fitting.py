@@ -44,6 +44,7 @@ from fitkit.result import (
     FitStats,
     Quantity,
 )
+from fitkit.setup_uncertainty import setup_rows
 from fitkit.setups import Setup
 from fitkit.sweep import Sweep
 from fitkit.topologies import get_topology
@@ -203,7 +204,7 @@ def _finish(problem: FitProblem, first: FirstPass, noise: Noise, judged: list) -
 
 
 def _to_result(problem, result, first: FirstPass, noise: Noise, judged: list) -> CircuitFit:
-    quantities, undetermined, determined, covariance = _quantities(problem, result, first.null_dirs)
+    quantities, undetermined, determined, covariance = _quantities(problem, result, first, noise)
     problem.check_inside(quantities["f0"].value, "the fitted resonance")
     used = first.used
     a, b = problem.raw_residual(result.params.valuesdict(), used, noise.domain)
@@ -219,7 +220,9 @@ def _to_result(problem, result, first: FirstPass, noise: Noise, judged: list) ->
     judged = judged + fit_warnings(problem, result, redchi, quantities, first, noise)
     quantities = _mark_doubtful(quantities, judged)
     inside = points_in_band(problem, quantities, used)
-    if needs_bootstrap(quantities, inside is not None and inside < MIN_POINTS_IN_BAND):
+    # (judged on the sweep's own share: the fixture's adds no nonlinearity)
+    own = {n: dataclasses.replace(q, stderr=q.own_u) for n, q in quantities.items()}
+    if needs_bootstrap(own, inside is not None and inside < MIN_POINTS_IN_BAND):
         quantities = _with_intervals(problem, result, used, noise, quantities)
         judged.append(
             (
@@ -266,7 +269,8 @@ _POORLY_PINNED = 0.6
 
 
 def _with_intervals(problem, result, used, noise, quantities: dict) -> dict:
-    """68 % bootstrap intervals on every determined value; no error below half of one."""
+    """68 % bootstrap intervals on every determined value; the sweep's share of an error
+    no less than half of one, the fixture's share added to it."""
     names = [n for n, q in quantities.items() if q.determined]
     found = intervals(
         problem, result.params.valuesdict(), varied(result.params), used, noise, names
@@ -276,14 +280,22 @@ def _with_intervals(problem, result, used, noise, quantities: dict) -> dict:
         q = out[name]
         low, high = min(low, q.value), max(high, q.value)
         doubtful = q.doubtful
-        u = max(q.stderr, 0.5 * (high - low))
+        fixture = math.sqrt(max(q.stderr**2 - q.own_u**2, 0.0))
+        own = max(q.own_u, 0.5 * (high - low))
+        u = math.hypot(own, fixture)
         if not doubtful and high - low > _POORLY_PINNED * abs(q.value):
             # a spread this wide is not a normal error bar: the estimate is lopsided
             doubtful = (
                 f"poorly pinned by this sweep: its 68% interval runs from "
                 f"{format_to(low, q.unit, u)} to {format_to(high, q.unit, u)}"
             )
-        out[name] = dataclasses.replace(q, interval=(low, high), stderr=u, doubtful=doubtful)
+        out[name] = dataclasses.replace(
+            q,
+            interval=(low, high),
+            stderr=u,
+            doubtful=doubtful,
+            u_sweep=None if q.u_sweep is None else own,
+        )
     for name in set(names) - set(found):
         q = out[name]
         if not q.doubtful and q.stderr > 0.5 * _POORLY_PINNED * abs(q.value):
@@ -306,11 +318,15 @@ def _mark_doubtful(quantities: dict, judged: list) -> dict:
     return out
 
 
-def _quantities(problem: FitProblem, result, null_dirs) -> tuple:
-    """Quantities with their standard errors, the undetermined ones with the reason, and
-    the covariance of the determined ones (:mod:`fitkit.propagation`)."""
-    values = result.params.valuesdict()
-    carried = Propagated(problem, values, varied(result.params), result.covar)
+def _quantities(problem: FitProblem, result, first: FirstPass, noise: Noise) -> tuple:
+    """Quantities with their standard errors (the fixture's stated uncertainties
+    included), the undetermined ones with the reason, the covariance of the determined
+    ones (:mod:`fitkit.propagation`, :mod:`fitkit.setup_uncertainty`); each keeps the
+    sweep's own share of its error when the fixture's is in it."""
+    values, names = result.params.valuesdict(), varied(result.params)
+    fixture = setup_rows(problem, values, names, first.used, noise)
+    carried = Propagated(problem, values, names, result.covar, fixture)
+    null_dirs = first.null_dirs
     scale_open = bool(null_dirs) and not problem.known
     on_open_scale = depending_on(problem, values, "lnscale") if scale_open else set()
     quantities, undetermined, kept = {}, [], []
@@ -323,7 +339,8 @@ def _quantities(problem: FitProblem, result, null_dirs) -> tuple:
             undetermined.append({"name": name, "reason": reason, "remedy": remedy})
             continue
         kept.append(name)
-        quantities[name] = Quantity(name, carried.values[name], carried.std_dev(name))
+        own = carried.std_dev(name, inputs=False) if fixture else None
+        quantities[name] = Quantity(name, carried.values[name], carried.std_dev(name), u_sweep=own)
     return quantities, undetermined, kept, carried.covariance(kept)
 
 

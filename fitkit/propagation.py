@@ -18,24 +18,39 @@ _NEGLIGIBLE = 1e-9
 
 
 class Propagated:
-    """Reported values, their gradients in the fit's parameters, and the covariance."""
+    """Reported values, their gradients in the fit's parameters, and the covariance.
 
-    def __init__(self, problem, values: dict, names: list, covar: np.ndarray) -> None:
+    ``inputs`` are further input quantities, independent of the fit and of each other:
+    ``(gradient of every reported value in it, its standard uncertainty)`` pairs (the
+    fixture values of :mod:`fitkit.setup_uncertainty`)."""
+
+    def __init__(self, problem, values: dict, names: list, covar, inputs=()) -> None:
         self.values = {k: float(v) for k, v in problem.reported(values).items()}
         rows = [_gradient(problem.reported({**values, n: values[n] + 1j * _STEP})) for n in names]
-        covar = np.asarray(covar, dtype=float)
+        spreads = []
         if problem.known:
             ((_, (_, known_u)),) = problem.known.items()
             if known_u:
                 rows.append(_gradient(problem.reported(values, known_shift=1j * _STEP)))
-                covar = np.pad(covar, (0, 1))
-                covar[-1, -1] = known_u**2
+                spreads.append(known_u)
+        #: rows from here on are the further inputs
+        self.first_input = len(names) + len(spreads)
+        for gradient, u in inputs:
+            rows.append(gradient)
+            spreads.append(u)
+        covar = np.pad(np.asarray(covar, dtype=float), (0, len(spreads)))
+        for i, u in enumerate(spreads, start=len(names)):
+            covar[i, i] = u**2
         self.gradients = {k: np.array([row.get(k, 0.0) for row in rows]) for k in self.values}
         self.covar = covar
 
-    def std_dev(self, name: str) -> float:
-        g = self.gradients[name]
-        return float(np.sqrt(max(g @ self.covar @ g, 0.0)))
+    def std_dev(self, name: str, inputs: bool = True) -> float:
+        """The standard uncertainty of ``name``; without the further ``inputs``, the
+        fit's own share (and the known value's)."""
+        g, covar = self.gradients[name], self.covar
+        if not inputs:
+            g, covar = g[: self.first_input], covar[: self.first_input, : self.first_input]
+        return float(np.sqrt(max(g @ covar @ g, 0.0)))
 
     def covariance(self, names: list) -> np.ndarray:
         g = np.array([self.gradients[n] for n in names])

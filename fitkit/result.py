@@ -42,6 +42,14 @@ class Quantity:
     doubtful: str = ""
     #: a 68 % interval (low, high) where the linearised error was doubtful
     interval: tuple | None = None
+    #: the sweep's own share of ``stderr`` where the setup states uncertainties of its
+    #: fixture values (None: ``stderr`` is all the sweep's)
+    u_sweep: float | None = None
+
+    @property
+    def own_u(self) -> float | None:
+        """The sweep's own share of the standard uncertainty."""
+        return self.stderr if self.u_sweep is None else self.u_sweep
 
     @property
     def unit(self) -> str:
@@ -69,6 +77,8 @@ class Quantity:
             out["doubtful"] = self.doubtful
         if self.interval:
             out["interval_68"] = list(self.interval)
+        if self.u_sweep is not None:
+            out["u_sweep"] = self.u_sweep
         return out
 
 
@@ -218,6 +228,7 @@ class CircuitFit:
                     entry.get("reason", ""),
                     entry.get("doubtful", ""),
                     tuple(entry["interval_68"]) if entry.get("interval_68") else None,
+                    entry.get("u_sweep"),
                 )
             saved = dict(data["fit"])
             stats = FitStats(redchi=saved.pop("reduced_chi_square"), **saved)

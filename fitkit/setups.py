@@ -51,6 +51,10 @@ _BENCHES_FOR_KIND = {
 }
 
 
+#: fixture values that may carry a stated uncertainty
+UNCERTAIN_FIELDS = ("source_ohm", "sense_ohm", "feed_ohm", "probe_f", "z0_ohm", "amplitude_vrms")
+
+
 @dataclass(frozen=True)
 class Setup:
     """The bench arrangement a sweep was taken with. Known values, never fitted.
@@ -81,6 +85,10 @@ class Setup:
         open-circuit EMF (common practice); ``"open-circuit"``: it shows the EMF.
     relative : bool
         The measured scale is not calibrated (only its shape counts).
+    uncertainty : tuple
+        Standard uncertainties of fixture values, as ``(field, u)`` pairs (fields of
+        :data:`UNCERTAIN_FIELDS`, ``u`` in the field's unit): carried into every fitted
+        value's uncertainty (:mod:`fitkit.setup_uncertainty`).
     """
 
     bench: str
@@ -94,8 +102,17 @@ class Setup:
     amplitude_vrms: float | None = None
     display: str = "matched"
     relative: bool = False
+    uncertainty: tuple = ()
 
     def __post_init__(self) -> None:
+        # (a saved fit gives lists: kept as pairs, so the setup stays hashable)
+        pairs = tuple((str(name), float(u)) for name, u in self.uncertainty)
+        object.__setattr__(self, "uncertainty", pairs)
+        for name, u in pairs:
+            if name not in UNCERTAIN_FIELDS or getattr(self, name) is None:
+                raise SetupError(f"an uncertainty is given for {name}, which this bench has not")
+            if not (math.isfinite(u) and u >= 0):
+                raise SetupError(f"the uncertainty of {name} must be finite and >= 0, not {u!r}")
         _check_choice("bench", self.bench, BENCHES)
         _check_choice("reference", self.reference, REFERENCES)
         _check_choice("generator display", self.display, DISPLAYS)
@@ -225,27 +242,34 @@ class Setup:
             return False
         return not (self.kind == "volts" and self.amplitude_vrms is None)
 
+    def u_of(self, field: str) -> float | None:
+        """The stated standard uncertainty of a fixture value (None: not stated)."""
+        return dict(self.uncertainty).get(field)
+
+    def _value(self, field: str, unit: str) -> str:
+        return format_quantity(getattr(self, field), unit, self.u_of(field))
+
     def describe(self) -> str:
         """One line saying what was assumed."""
         if self.bench in GENERATOR_BENCHES:
             if self.shape_only:
                 return "divider, relative scale and no fixture values: only the shape counts"
             if self.bench == "divider":
-                parts = [f"divider, sense resistor {format_quantity(self.sense_ohm, 'ohm')}"]
+                parts = [f"divider, sense resistor {self._value('sense_ohm', 'ohm')}"]
             else:
-                parts = [f"across the circuit, fed through {format_quantity(self.feed_ohm, 'ohm')}"]
+                parts = [f"across the circuit, fed through {self._value('feed_ohm', 'ohm')}"]
             if self.source_in_loop:
-                parts.append(f"source {format_quantity(self.source_ohm, 'ohm')} in the loop")
+                parts.append(f"source {self._value('source_ohm', 'ohm')} in the loop")
             else:
                 parts.append("ratio against the generator terminal")
-            if self.probe_f:
-                parts.append(f"probe {format_quantity(self.probe_f, 'F')}")
+            if self.probe_f or self.u_of("probe_f"):
+                parts.append(f"probe {self._value('probe_f', 'F')}")
             if self.kind == "volts":
                 if self.amplitude_vrms is None:
                     parts.append("generator amplitude not given")
                 else:
                     parts.append(
-                        f"generator {format_quantity(self.amplitude_vrms, 'Vrms')} "
+                        f"generator {self._value('amplitude_vrms', 'Vrms')} "
                         f"({self.display} display, EMF {format_quantity(self.emf_vrms, 'Vrms')})"
                     )
             if self.relative:
@@ -253,7 +277,7 @@ class Setup:
             return ", ".join(parts)
         if self.bench == "impedance":
             return "impedance read directly"
-        return f"{self.bench}, reference impedance {format_quantity(self.z0_ohm, 'ohm')}"
+        return f"{self.bench}, reference impedance {self._value('z0_ohm', 'ohm')}"
 
     def to_dict(self) -> dict:
         return asdict(self)

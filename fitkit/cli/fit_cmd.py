@@ -33,7 +33,13 @@ def bench_options(func):
         _value_option(
             "--source-r", "source_ohm", "Generator source resistance, ohm [default: 50]."
         ),
-        _value_option("--sense-r", "sense_ohm", "Sense resistor of a divider, ohm (e.g. 47, 4k7)."),
+        _value_option(
+            "--sense-r",
+            "sense_ohm",
+            "Sense resistor of a divider, ohm (e.g. 47, 4k7). Any bench value may carry "
+            "its standard uncertainty, '47+-0.5' or '47+-1%': it is carried into every "
+            "fitted value's.",
+        ),
         _value_option(
             "--feed-r", "feed_ohm", "Resistor feeding the circuit on an across bench, ohm."
         ),

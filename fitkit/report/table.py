@@ -18,6 +18,8 @@ def fit_table(fit: CircuitFit) -> str:
         f"  bench    {setup.describe()}",
         f"  noise    {s.noise}",
     ]
+    if setup.uncertainty:
+        lines.insert(3, "           (the bench values' stated +/- are in every uncertainty below)")
     if fit.choice:
         lines.append(f"  model    {fit.choice}")
     for name in fit.known:
