@@ -338,6 +338,21 @@ def _channel_skew(rng) -> dict:
     return _spec(effect, "IF 455 kHz", setup, truth, f, clean, additive(clean, 1e-3, rng))
 
 
+def _probe_mislabelled(rng) -> dict:
+    # the probe across the 47 ohm sense resistor has 40 pF; the user wrote the 15 pF of its
+    # label. The sense impedance is Rs || 1/(j w Cp) (Ohm's law on the pair); the extra
+    # 25 pF lags the phase as a delay of 1.2 ns would and acts as -55 nH in the loop
+    r, l_h, sense = 8.0, 220e-6, 47.0
+    c_f = capacitor_for(1e6, l_h)
+    truth = series_truth(r, l_h, c_f, sense)
+    f = span(truth["f0"], truth["loaded_bandwidth"], 4.0)
+    zs = sense / (1.0 + 1j * omega(f) * 40e-12 * sense)
+    clean = zs / (series_impedance(f, r, l_h, c_f) + zs)
+    effect = "probe capacitance of 40 pF entered as 15 pF (divider ratio, 70 dB SNR)"
+    setup = Setup("divider", "ratio", sense_ohm=sense, probe_f=15e-12)
+    return _spec(effect, "MW", setup, truth, f, clean, additive(clean, 3e-4, rng))
+
+
 #: the series trap of the calibration-plane case and the line left between plane and part
 PLANE = {"r": 5.0, "L": 1e-6, "f0": 98e6, "length_m": 0.04}
 
@@ -489,6 +504,7 @@ _BUILDERS = {
     "relative_scale": _relative_scale,
     "open_capacitor": _open_capacitor,
     "flat_resistor": _flat_resistor,
+    "probe_mislabelled": _probe_mislabelled,
 }
 CASE_NAMES = tuple(_BUILDERS)
 
