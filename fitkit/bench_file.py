@@ -15,6 +15,7 @@ A small TOML file (``fitkit-setup.toml`` in the sweep's folder is found by itsel
     generator_display = "matched"    # display assumes a 50 ohm load; or "open-circuit"
     reference_impedance = "50"       # Z0 for S-parameters
     relative = false                 # true when the ratio's scale is not calibrated
+    reading_gain = "1 +- 2%"         # the reading's calibration: 1, and how well it holds
 
     [known]                          # values measured otherwise (LCR meter)
     L = "100u +- 0.5u"
@@ -57,6 +58,7 @@ _FIELDS = {
     "generator_display": ("display", None),
     "reference_impedance": ("z0_ohm", "ohm"),
     "relative": ("relative", None),
+    "reading_gain": ("reading_gain", ""),
 }
 _KNOWN_UNITS = {"R": "ohm", "L": "H", "C": "F"}
 _SECTIONS = ("bench", "known", "columns")
@@ -68,10 +70,11 @@ _EXAMPLES = {
     "probe_f": "15p",
     "amplitude_vrms": "'2 Vpp'",
     "z0_ohm": "50",
+    "reading_gain": "1",
 }
 #: Setup fields that must be above zero; the others (source resistance, probe
 #: capacitance) may be zero.
-_POSITIVE = {"sense_ohm", "feed_ohm", "z0_ohm", "amplitude_vrms"}
+_POSITIVE = {"sense_ohm", "feed_ohm", "z0_ohm", "amplitude_vrms", "reading_gain"}
 #: Setup field -> the command-line option that sets it, for messages.
 OPTION_OF = {
     "bench": "--bench",
@@ -84,6 +87,7 @@ OPTION_OF = {
     "display": "--display",
     "z0_ohm": "--z0",
     "relative": "--relative",
+    "reading_gain": "--reading-gain",
 }
 
 

@@ -52,7 +52,9 @@ _BENCHES_FOR_KIND = {
 
 
 #: fixture values that may carry a stated uncertainty
-UNCERTAIN_FIELDS = ("source_ohm", "sense_ohm", "feed_ohm", "probe_f", "z0_ohm", "amplitude_vrms")
+UNCERTAIN_FIELDS = (
+    "source_ohm", "sense_ohm", "feed_ohm", "probe_f", "z0_ohm", "amplitude_vrms", "reading_gain"
+)  # fmt: skip
 
 
 @dataclass(frozen=True)
@@ -85,6 +87,10 @@ class Setup:
         open-circuit EMF (common practice); ``"open-circuit"``: it shows the EMF.
     relative : bool
         The measured scale is not calibrated (only its shape counts).
+    reading_gain : float
+        What the instrument reads over what it should: 1 for a calibrated reading. Its
+        stated uncertainty is the calibration's (two scope channels through two probes
+        agree to a few per cent, an analyser to a fraction of one: common practice).
     uncertainty : tuple
         Standard uncertainties of fixture values, as ``(field, u)`` pairs (fields of
         :data:`UNCERTAIN_FIELDS`, ``u`` in the field's unit): carried into every fitted
@@ -102,6 +108,7 @@ class Setup:
     amplitude_vrms: float | None = None
     display: str = "matched"
     relative: bool = False
+    reading_gain: float = 1.0
     uncertainty: tuple = ()
 
     def __post_init__(self) -> None:
@@ -122,6 +129,8 @@ class Setup:
                 f"a {self.kind} sweep cannot come from a {self.bench} bench",
                 remedy=f"for {self.kind} data choose the {allowed} bench",
             )
+        if not (math.isfinite(self.reading_gain) and self.reading_gain > 0):
+            raise SetupError(f"the reading gain must be above 0, not {self.reading_gain!r}")
         for name in ("source_ohm", "z0_ohm", "probe_f"):
             value = getattr(self, name)
             if not (math.isfinite(value) and value >= 0):
@@ -173,7 +182,15 @@ class Setup:
         return self.kind == "volts" or self.reference == "open-circuit"
 
     def coefficients(self, freq_hz: np.ndarray) -> tuple:
-        """The bilinear map ``m = (a Z + b) / (c Z + d)`` at each frequency."""
+        """The bilinear map ``m = (a Z + b) / (c Z + d)`` at each frequency (the reading
+        gain scales ``a`` and ``b``)."""
+        a, b, c, d = self._map(freq_hz)
+        if self.reading_gain != 1.0:
+            a, b = self.reading_gain * a, self.reading_gain * b
+        return a, b, c, d
+
+    def _map(self, freq_hz: np.ndarray) -> tuple:
+        """The bench's own map, before the reading gain."""
         w = 2.0 * np.pi * np.asarray(freq_hz, dtype=np.float64)
         one = np.ones_like(w)
         if self.shape_only:
@@ -274,10 +291,17 @@ class Setup:
                     )
             if self.relative:
                 parts.append("relative (uncalibrated) scale")
-            return ", ".join(parts)
+            return ", ".join(parts) + self._gain_words()
         if self.bench == "impedance":
-            return "impedance read directly"
-        return f"{self.bench}, reference impedance {self._value('z0_ohm', 'ohm')}"
+            return "impedance read directly" + self._gain_words()
+        return f"{self.bench}, reference impedance {self._value('z0_ohm', 'ohm')}" + (
+            self._gain_words()
+        )
+
+    def _gain_words(self) -> str:
+        if self.reading_gain == 1.0 and not self.u_of("reading_gain"):
+            return ""
+        return f", reading gain {self._value('reading_gain', '')}"
 
     def to_dict(self) -> dict:
         return asdict(self)

@@ -106,6 +106,7 @@ def test_stated_uncertainties_are_read_from_both_forms():
     value, u = check_override("amplitude_vrms", "2 Vpp +- 1%")
     assert u == pytest.approx(0.01 * value)
     assert check_override("sense_ohm", "47") == (47.0, 0.0)
+    assert check_override("reading_gain", "1+-2%") == (1.0, pytest.approx(0.02))
     for bad in ("47+-", "47 +- x", "47+--1"):
         with pytest.raises(SetupError, match="standard uncertainty"):
             check_override("sense_ohm", bad)
@@ -154,3 +155,24 @@ def test_one_bench_for_both_sweeps_leaves_its_fixture_out_of_the_drift():
     apart = {c.name: c for c in compare(side_of_fit(now_there, "now"), side_of_fit(then, "then"))}
     combined = math.hypot(now_there.quantities["L"].stderr, then.quantities["L"].stderr)
     assert apart["L"].u == pytest.approx(combined, rel=1e-9) and not apart["L"].significant
+
+
+def test_a_reading_gain_goes_into_the_loop_resistance_and_leaves_the_loaded_q():
+    # a reading g times the truth on a divider: g Rs / (Z + Rs) = Rs / (Z/g + Rs/g), what a
+    # circuit Z' = Z/g + Rs (1/g - 1) gives: L/g, g C and R/g + Rs (1/g - 1). At g = 1
+    # dL/dg = -L, dC/dg = C, dR/dg = -(R + Rs); f0 and the loaded Q, w0 L/(R + Rs), stay
+    # (derived from the divider formula)
+    from tests.synthetic import TRUTH
+
+    share = 0.02
+    plain, stated = _fits(dataclasses.replace(DIVIDER, reading_gain=1.0), "reading_gain", share)
+    shares = {"L": share * TRUTH["L"], "C": share * TRUTH["C"], "R": share * (TRUTH["R"] + 47.0)}
+    for name, fixture in shares.items():
+        own = plain.quantities[name].stderr
+        assert stated.quantities[name].stderr == pytest.approx(math.hypot(own, fixture), rel=2e-3)
+    for name in ("f0", "Q_loaded", "loaded_bandwidth"):
+        assert stated.quantities[name].stderr == pytest.approx(
+            plain.quantities[name].stderr, rel=1e-4
+        ), name
+    described = Setup(**stated.setup).describe()
+    assert described.endswith("reading gain 1.000 +/- 0.020"), described

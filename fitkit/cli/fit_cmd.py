@@ -66,6 +66,12 @@ def bench_options(func):
             "[default], or shows the open-circuit EMF.",
         ),
         _value_option("--z0", "z0_ohm", "Reference impedance of S-parameters, ohm [default: 50]."),
+        _value_option(
+            "--reading-gain",
+            "reading_gain",
+            "The reading's calibration as a factor, with its uncertainty: '1+-2%' for two "
+            "scope channels through probes [default: 1, exact].",
+        ),
         click.option(
             "--relative/--calibrated",
             default=None,
@@ -108,6 +114,7 @@ def overrides_from_options(opts: dict) -> dict:
         "display": opts.get("display"),
         "z0_ohm": opts.get("z0"),
         "relative": opts.get("relative"),
+        "reading_gain": opts.get("reading_gain"),
     }
 
 
