@@ -204,8 +204,8 @@ def _vote(lines: list[str]) -> tuple | None:
     best, best_count, plain = _count_votes(window)
     if len(window) == len(head):
         return best
-    rows = sum(1 for ln in window if _ROW_START.match(ln))
-    if best is not None and best_count == rows and plain:
+    # the window ends at its _SNIFF_ROWS-th line that may be a row
+    if best is not None and best_count == _SNIFF_ROWS and plain:
         return best
     return _count_votes(head)[0]
 
@@ -234,10 +234,10 @@ def _count_votes(lines: list[str]) -> tuple:
             split = [ln for ln in lines if delimiter in ln]
         if len(split) < best_score[0]:  # cannot reach the count
             continue
-        count = sum(1 for ln in split if numeric_fields(ln, delimiter, decimal))
-        if not count or count < best_score[0]:
+        rows = [ln for ln in split if numeric_fields(ln, delimiter, decimal)]
+        if not rows or len(rows) < best_score[0]:
             continue
-        score = (count, not text_forms(split, delimiter, decimal))
+        score = (len(rows), not text_forms(rows, delimiter, decimal))
         if score > best_score:
             best, best_score = (delimiter, decimal), score
     return best, best_score[0], best_score[1]
