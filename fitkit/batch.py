@@ -225,7 +225,7 @@ def _worker_start(main_pid: int) -> None:
     """Worker set-up: Ctrl-C is the main process's to handle; end with the main process."""
     signal.signal(signal.SIGINT, signal.SIG_IGN)
     threading.Thread(target=_exit_with, args=(main_pid,), daemon=True).start()
-    gc.freeze()  # as settled_heap does, for the worker's life
+    gc.freeze()  # as _settled_heap does, for the worker's life
 
 
 def _exit_with(pid: int) -> None:
@@ -328,7 +328,7 @@ def run_batch(
     if workers == 1 or len(first) < 2:  # no pool to start for a single fit
         import fitkit.workflow  # noqa: F401  (loaded before the heap is settled)
 
-        with settled_heap():
+        with _settled_heap():
             for index, args in itertools.chain(first, jobs):
                 finished(index, *fit_one(*args))
     else:
@@ -336,7 +336,7 @@ def run_batch(
 
 
 @contextlib.contextmanager
-def settled_heap() -> Iterator[None]:
+def _settled_heap() -> Iterator[None]:
     """Leave the objects alive now (modules, the fitting libraries: some 120,000) out of
     the garbage collector's passes for the block. Fits make many short-lived objects,
     and each full pass over the long-lived ones costs some 40 ms (Python's
