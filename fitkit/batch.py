@@ -340,12 +340,14 @@ def _settled_heap() -> Iterator[None]:
     """Leave the objects alive now (modules, the fitting libraries: some 120,000) out of
     the garbage collector's passes for the block. Fits make many short-lived objects,
     and each full pass over the long-lived ones costs some 40 ms (Python's
-    :func:`gc.freeze`)."""
+    :func:`gc.freeze`). A heap frozen by the caller before stays frozen."""
+    frozen_before = gc.get_freeze_count() > 0
     gc.freeze()
     try:
         yield
     finally:
-        gc.unfreeze()
+        if not frozen_before:
+            gc.unfreeze()
 
 
 def _jobs(
