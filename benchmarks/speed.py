@@ -197,19 +197,23 @@ def subset(folder: Path, count: int) -> Path:
 def in_process(folder: Path, out: Path, model: str) -> dict:
     """A one-worker batch run in this process, warm (imports and first calls done on two
     sweeps): the CPU a sweep spends in ``fit_sweep`` and outside it (reading, set-up,
-    records, results), and the resident memory after half and after all the sweeps."""
+    records, results), of which in ``read_sweep``, and the resident memory after half
+    and after all the sweeps."""
     import fitkit.workflow
     from fitkit.cli import main
 
-    real = fitkit.workflow.fit_sweep
-    inside = [0.0]
+    real = {name: getattr(fitkit.workflow, name) for name in ("fit_sweep", "read_sweep")}
+    spent = dict.fromkeys(real, 0.0)
 
-    def counted(*args, **kwargs):
-        start = time.process_time()
-        try:
-            return real(*args, **kwargs)
-        finally:
-            inside[0] += time.process_time() - start
+    def counting(name: str) -> Callable:
+        def counted(*args, **kwargs):
+            start = time.process_time()
+            try:
+                return real[name](*args, **kwargs)
+            finally:
+                spent[name] += time.process_time() - start
+
+        return counted
 
     sweeps = sorted(folder.glob("*.csv"))
     half = subset(folder, len(sweeps) // 2)
@@ -218,19 +222,22 @@ def in_process(folder: Path, out: Path, model: str) -> dict:
         command = ["batch", str(where), "--out", str(out), "--workers", "1", "--model", model]
         return cpu_of(lambda: main([*command, "--force"], standalone_mode=False))
 
-    fitkit.workflow.fit_sweep = counted
+    for name in real:
+        setattr(fitkit.workflow, name, counting(name))
     try:
         with contextlib.redirect_stdout(io.StringIO()):
             run(subset(folder, 2))
             run(half)
             rss_half = resident_mib()
-            inside[0] = 0.0
+            spent.update(dict.fromkeys(spent, 0.0))
             total = run(folder)
             rss_all = resident_mib()
     finally:
-        fitkit.workflow.fit_sweep = real
-    n = len(sweeps)
-    return {"fit": inside[0] / n, "rest": (total - inside[0]) / n, "rss": (rss_half, rss_all)}
+        for name, func in real.items():
+            setattr(fitkit.workflow, name, func)
+    n, fit = len(sweeps), spent["fit_sweep"]
+    return {"fit": fit / n, "rest": (total - fit) / n, "read": spent["read_sweep"] / n,
+            "rss": (rss_half, rss_all)}  # fmt: skip
 
 
 def batch(quick: bool, count: int) -> None:
@@ -252,9 +259,10 @@ def batch(quick: bool, count: int) -> None:
                 f"{got['fit'] * 1e3:.2f} ms", f"{got['rest'] / per_sweep[model]:.0%}",
                 f">= {goal}/s/core: {met(1 / per_sweep[model] >= goal)}")  # fmt: skip
             growth = (got["rss"][1] - got["rss"][0]) * 2**20 / count
-            print(f"  {'':<34} everything but fit_sweep: {got['rest'] * 1e3:.2f} ms a sweep; "
-                  f"resident memory {got['rss'][0]:.1f} MiB, then {growth:+.0f} bytes a sweep "
-                  f"over {count} more")  # fmt: skip
+            print(f"  {'':<34} everything but fit_sweep: {got['rest'] * 1e3:.2f} ms a sweep "
+                  f"(read_sweep {got['read'] * 1e3:.2f} ms); resident memory "
+                  f"{got['rss'][0]:.1f} MiB, then {growth:+.0f} bytes a sweep over {count} "
+                  "more")  # fmt: skip
         print("\n  the command, a fresh process (CPU of all its processes; wall on this machine"
               " as loaded)")  # fmt: skip
         for model in goals:

@@ -261,7 +261,10 @@ def record_name(path: Path, root: Path) -> str:
     >>> record_name(Path("kits/a/kit 01.csv"), Path("kits"))
     'a%2Fkit 01.csv.json'
     """
-    rel = os.path.relpath(os.path.abspath(path), os.path.abspath(root))
+    full, base = os.path.abspath(path), os.path.abspath(root)
+    below = base if base.endswith(os.sep) else base + os.sep
+    # below the root (always, for a batch's inputs): the rest of the path is relative
+    rel = full[len(below) :] if full.startswith(below) else os.path.relpath(full, base)
     name = quote(os.fsencode(rel), safe=" ()+,-.=@_")
     if name.startswith("."):
         name = "%2E" + name[1:]

@@ -72,10 +72,16 @@ def atomic_file(path: Path, newline: str | None = None) -> Iterator[IO[str]]:
             yield fh
         os.replace(tmp, path)
     except OSError as exc:
+        _remove(tmp)
         raise output_error(exc, path, "write this file") from None
-    finally:
-        with contextlib.suppress(OSError):
-            tmp.unlink()
+    except BaseException:
+        _remove(tmp)
+        raise
+
+
+def _remove(tmp: Path) -> None:
+    with contextlib.suppress(OSError):
+        tmp.unlink()
 
 
 @contextlib.contextmanager

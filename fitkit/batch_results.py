@@ -198,6 +198,8 @@ def row_source(record: dict) -> dict:
     if not fit:
         return record
     slim = {"values": fit["values"], "derived": fit["derived"]}
+    if "format" in fit:  # a record of today's layout needs no upgrade in make_row
+        slim["format"] = fit["format"]
     return {**record, "fit": {**slim, "fit": {"warnings": fit["fit"]["warnings"]}}}
 
 

@@ -34,6 +34,7 @@ from __future__ import annotations
 
 import fnmatch
 import math
+import os
 import re
 from pathlib import Path
 
@@ -117,20 +118,7 @@ def load_bench_file(path: str | Path, *, for_sweep: str | Path | None = None) ->
         message suggests the nearest known key), or when two patterns match the sweep.
     """
     p = Path(path)
-    data = read_toml(
-        p,
-        what="setup file",
-        option="--setup",
-        layout=f"see the layout of {DEFAULT_NAME} in docs/getting-started.md",
-    )
-    patterns = data.pop("files", {})
-    _check_tables(data, p, "")
-    if not isinstance(patterns, dict):
-        raise _not_a_table("files", patterns, p)
-    for pattern, tables in patterns.items():
-        if not isinstance(tables, dict):
-            raise _not_a_table(f'files."{pattern}"', tables, p)
-        _check_tables(tables, p, f'files."{pattern}".')
+    data, patterns = _checked_tables(p)
     out = {k: dict(data.get(k, {})) for k in _SECTIONS}
     if for_sweep is None:
         return out
@@ -147,6 +135,42 @@ def load_bench_file(path: str | Path, *, for_sweep: str | Path | None = None) ->
         for section in _SECTIONS:
             out[section].update(patterns[pattern].get(section, {}))
     return out
+
+
+#: setup files read and checked, by path and the file's identity, size and times: the
+#: sweeps of a batch share one setup file, read once (a rewritten file is read again)
+_CHECKED: dict = {}
+
+
+def _checked_tables(p: Path) -> tuple[dict, dict]:
+    """The setup file's own tables and its ``[files."PATTERN"]`` tables, checked; kept
+    unchanged while the file is (the caller copies what it changes)."""
+    try:
+        st = os.stat(p)
+        key = (os.path.abspath(p), st.st_dev, st.st_ino, st.st_size, st.st_mtime_ns, st.st_ctime_ns)
+    except OSError:
+        key = None  # reading it says why it cannot be read
+    if key is not None and key in _CHECKED:
+        return _CHECKED[key]
+    data = read_toml(
+        p,
+        what="setup file",
+        option="--setup",
+        layout=f"see the layout of {DEFAULT_NAME} in docs/getting-started.md",
+    )
+    patterns = data.pop("files", {})
+    _check_tables(data, p, "")
+    if not isinstance(patterns, dict):
+        raise _not_a_table("files", patterns, p)
+    for pattern, tables in patterns.items():
+        if not isinstance(tables, dict):
+            raise _not_a_table(f'files."{pattern}"', tables, p)
+        _check_tables(tables, p, f'files."{pattern}".')
+    if key is not None:
+        if len(_CHECKED) >= 64:
+            _CHECKED.clear()
+        _CHECKED[key] = data, patterns
+    return data, patterns
 
 
 def _check_tables(data: dict, path: Path, prefix: str) -> None:

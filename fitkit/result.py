@@ -162,7 +162,7 @@ class CircuitFit:
         with np.errstate(divide="ignore", invalid="ignore"):
             corr = np.round(cov / np.outer(sd, sd), 6)
         # a value with no spread (known exactly) has no correlation: null in JSON
-        matrix = [[float(x) if np.isfinite(x) else None for x in row] for row in corr]
+        matrix = [[x if math.isfinite(x) else None for x in row] for row in corr.tolist()]
         return {"names": list(names), "matrix": matrix}
 
     def correlation(self, a: str, b: str) -> float | None:

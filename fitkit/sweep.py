@@ -91,19 +91,19 @@ class Sweep:
                 remedy="a fit needs a sweep of many points across the resonance",
                 path=self.source,
             )
-        if not np.all(np.isfinite(f)) or not np.all(np.isfinite(v)):
+        if not (np.isfinite(f).all() and np.isfinite(v).all()):
             raise InputError(
                 "the sweep holds a value that is not a finite number",
                 remedy="remove or repair the rows with NaN or infinite values",
                 path=self.source,
             )
-        if np.any(f <= 0):
+        if (f <= 0).any():
             raise InputError(
                 f"frequency {f[f <= 0][0]:g} Hz is zero or negative",
                 remedy="check the frequency column and its unit",
                 path=self.source,
             )
-        if np.any(np.diff(f) <= 0):
+        if (f[1:] <= f[:-1]).any():
             raise InputError(
                 "frequencies are not ascending and unique",
                 remedy="sort the sweep and merge repeated frequencies",

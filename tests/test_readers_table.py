@@ -216,6 +216,28 @@ def test_bad_tables_are_refused_with_where_and_fix(tmp_path, text, message, line
     assert info.value.remedy
 
 
+@pytest.mark.parametrize(
+    ("rows", "refused"),
+    [
+        ("1,1e-3,1e-3\n2,0.8e100,0.8e100", "beyond 1e100"),  # each part below, |v| above
+        ("1,1e-3,1e-3\n2,0.7e100,0.7e100", None),  # |v| = 0.99e100
+        ("1,1e-3,1e-3\n2,1,2e100", "beyond 1e100"),
+        ("1,0.9e-100,0\n2,0,0.9e-100", "below 1e-100"),
+        ("1,0.9e-100,0.9e-100\n2,0,0", None),  # the largest |v| = 1.27e-100
+        ("1,0,0\n2,0,0", None),
+    ],
+)
+def test_readings_outside_any_instrument_are_refused_by_their_size(tmp_path, rows, refused):
+    # the limits of fitkit.readers.tidy: a |v| above 1e100, or every |v| below 1e-100
+    path = write(tmp_path, f"freq (Hz),re,im\n{rows}\n")
+    if refused is None:
+        assert read_sweep(path).points == 2
+        return
+    with pytest.raises(InputError, match=refused) as info:
+        read_sweep(path)
+    assert info.value.line in (2, 3)
+
+
 def test_binary_junk_is_refused(tmp_path):
     path = tmp_path / "junk.csv"
     path.write_bytes(bytes(np.random.default_rng(7).integers(0, 256, 4096, dtype=np.uint8)))

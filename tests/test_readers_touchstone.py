@@ -168,3 +168,32 @@ def test_bad_touchstone_is_refused(tmp_path, name, text, message, line):
 def test_writer_refuses_zero_in_db(tmp_path):
     with pytest.raises(ValueError, match="no dB form"):
         write_touchstone(tmp_path / "z.s1p", [1.0, 2.0], np.array([0.5, 0.0]), fmt="DB")
+
+
+@pytest.mark.parametrize("comment", ["", "! a note\n", "!" + "x" * 300 + "\n\n! more\n"])
+def test_touchstone_text_under_another_name_is_known_by_its_opening(tmp_path, comment):
+    # a Touchstone file opens with comments and then its option line (Touchstone 1.1)
+    path = write_touchstone(tmp_path / "dut.s1p", FREQ, TWO_PORT[:, 0, 0])
+    text = path.read_text(encoding="utf-8")
+    renamed = tmp_path / "dut.txt"
+    renamed.write_text(comment + text, encoding="utf-8")
+    reading = inspect_sweep(renamed)
+    assert reading.format.startswith("Touchstone")
+    np.testing.assert_allclose(reading.sweep.values, TWO_PORT[:, 0, 0], rtol=1e-12)
+
+
+@pytest.mark.parametrize(
+    "opening",
+    [
+        "#" + "x" * 300 + "\n",
+        # a comment whose first words read as an option line, cut at 256 characters
+        "!" + "x" * 248 + "\n# hz s, said the note: not an option line\n",
+    ],
+)
+def test_a_table_after_a_long_comment_is_not_taken_for_touchstone(tmp_path, opening):
+    path = tmp_path / "sweep.txt"
+    rows = "".join(f"{f:g},{0.1 + i / 100:g}\n" for i, f in enumerate(FREQ))
+    path.write_text(opening + "freq (Hz),gain\n" + rows, encoding="utf-8")
+    reading = inspect_sweep(path)
+    assert reading.format == "delimited text"
+    assert reading.sweep.points == len(FREQ)

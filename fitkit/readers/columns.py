@@ -13,6 +13,7 @@ there; :func:`parse_overrides` checks it.
 
 from __future__ import annotations
 
+import functools
 import re
 from dataclasses import dataclass
 from pathlib import Path
@@ -103,8 +104,10 @@ class Override:
     unit: Unit | None
 
 
+@functools.lru_cache(maxsize=1024)
 def describe_column(position: int, name: str) -> Column:
-    """Split a header cell into words, unit and the quantity it names.
+    """Split a header cell into words, unit and the quantity it names (remembered: the
+    files of a batch repeat their header).
 
     Examples
     --------

@@ -100,6 +100,11 @@ class Plan:
         return cells["sigma"] * unit.scale, unit.dimension == "share"
 
 
+#: plans made, by header, overrides and kind asked: the files of a batch repeat their
+#: header (a header that fails is not kept: its error names the file)
+_PLANS: dict = {}
+
+
 def plan_columns(
     header: list[Column],
     overrides: dict[str, Override],
@@ -115,6 +120,17 @@ def plan_columns(
         When no column reads as frequency or as a measured value, when two columns
         compete for one role, or when units do not fit their roles.
     """
+    key = (tuple(header), tuple(overrides.items()), kind_asked)
+    plan = _PLANS.get(key)
+    if plan is None:
+        plan = _plan(header, overrides, kind_asked, path, line)
+        if len(_PLANS) >= 256:
+            _PLANS.clear()
+        _PLANS[key] = plan
+    return Plan(roles=dict(plan.roles), kind=plan.kind, in_db=plan.in_db, notes=list(plan.notes))
+
+
+def _plan(header, overrides, kind_asked, path: Path, line) -> Plan:
     notes: list[str] = []
     chosen: dict[str, Column] = {}
     for role, ov in overrides.items():

@@ -165,8 +165,9 @@ def _sniff(lines: list[str], encoding: str, complete: bool, path: Path) -> Diale
             line=1 if complete else None,
         )
     delimiter, decimal = best
-    first = next(i for i, ln in enumerate(lines) if numeric_fields(ln, delimiter, decimal))
-    fields = numeric_fields(lines[first], delimiter, decimal)
+    first, fields = next(
+        (i, n) for i, ln in enumerate(lines) if (n := numeric_fields(ln, delimiter, decimal))
+    )
     header_index, names = _find_header(lines, first, delimiter, fields)
     units_index = None
     if header_index is not None and _all_units(names):
@@ -200,11 +201,11 @@ def _vote(lines: list[str]) -> tuple | None:
     """
     head = lines[:_SNIFF_LINES]
     window = _row_window(head)
-    best, best_count = _count_votes(window)
+    best, best_count, plain = _count_votes(window)
     if len(window) == len(head):
         return best
-    rows = sum(1 for ln in window if _ROW_START.match(ln))
-    if best is not None and best_count == rows and not text_forms(window, *best):
+    # the window ends at its _SNIFF_ROWS-th line that may be a row
+    if best is not None and best_count == _SNIFF_ROWS and plain:
         return best
     return _count_votes(head)[0]
 
@@ -221,10 +222,10 @@ def _row_window(lines: list[str]) -> list[str]:
 
 
 def _count_votes(lines: list[str]) -> tuple:
-    """The dialect under which most lines are rows of numbers, and that count. A tie goes
-    to the dialect whose numbers need no thousands commas or prefixes (under ';',
-    '80,000;-21,589' is far likelier decimal commas than eighty thousand and a gain of
-    -21589 dB), then to the one tried first."""
+    """The dialect under which most lines are rows of numbers, that count, and whether
+    its numbers are all plain. A tie goes to the dialect whose numbers need no thousands
+    commas or prefixes (under ';', '80,000;-21,589' is far likelier decimal commas than
+    eighty thousand and a gain of -21589 dB), then to the one tried first."""
     best, best_score = None, (0, False)
     for delimiter, decimal in _DIALECTS:
         if delimiter is None:
@@ -233,13 +234,13 @@ def _count_votes(lines: list[str]) -> tuple:
             split = [ln for ln in lines if delimiter in ln]
         if len(split) < best_score[0]:  # cannot reach the count
             continue
-        count = sum(1 for ln in split if numeric_fields(ln, delimiter, decimal))
-        if not count or count < best_score[0]:
+        rows = [ln for ln in split if numeric_fields(ln, delimiter, decimal)]
+        if not rows or len(rows) < best_score[0]:
             continue
-        score = (count, not text_forms(split, delimiter, decimal))
+        score = (len(rows), not text_forms(rows, delimiter, decimal))
         if score > best_score:
             best, best_score = (delimiter, decimal), score
-    return best, best_score[0]
+    return best, best_score[0], best_score[1]
 
 
 def _all_units(cells: list[str]) -> bool:

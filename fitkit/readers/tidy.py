@@ -84,9 +84,9 @@ def tidy_sweep(
             line=int(lines[0]) if lines.size else None,
         )
     sigmas = {"sigma": sigma, "sigma_relative": sigma_relative}
-    steps = np.diff(freq_hz)
-    if steps.size and steps.min() > 0:  # ascending and unique, the common case
+    if (freq_hz[1:] > freq_hz[:-1]).all():  # ascending and unique, the common case
         return _sweep(freq_hz, values, path, kind, recorded_in_db, metadata, notes, sha256, sigmas)
+    steps = np.diff(freq_hz)
     if (steps < 0).any():
         if (steps <= 0).all():
             notes.append("sorted a descending sweep")
@@ -205,9 +205,13 @@ MAX_READING = 1e100
 def _refuse_beyond_readings(freq_hz, values, lines, path, freq_column) -> None:
     if freq_hz.size and (freq_hz.min() <= 0 or freq_hz.max() > MAX_FREQ_HZ):
         _refuse_frequency(freq_hz, lines, path, freq_column)
-    size = np.abs(values)
-    if not size.size:
+    if not values.size:
         return
+    parts = values.view(np.float64) if np.iscomplexobj(values) else values
+    bound = max(float(parts.max()), -float(parts.min()))  # max |v| in [bound, 1.42 bound]
+    if bound == 0 or 1 / MAX_READING <= bound <= MAX_READING / 2:
+        return  # within the limits: no need of each |v|
+    size = np.abs(values)
     largest = float(size.max())
     if largest > MAX_READING or 0 < largest < 1 / MAX_READING:
         what = "beyond 1e100" if largest > MAX_READING else "the largest, and all are below 1e-100"

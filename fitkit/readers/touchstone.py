@@ -73,12 +73,19 @@ def looks_like_touchstone(path: Path, head: str | None = None) -> bool:
             head = read_head(path, _OPENING, grow=False).head
         except InputError:
             return False
-    for line in head[:_OPENING].splitlines():
-        text = line.split("!", 1)[0].strip()
-        if text:
-            return text.lower().startswith("[version]") or (
-                bool(_OPTION.fullmatch(text)) and len(text.split()) > 1
-            )
+    opening = head[:_OPENING]
+    for size in (256, _OPENING):  # most files decide on their first line
+        lines = opening[:size].splitlines()
+        if size < len(opening):
+            lines.pop()  # it may be cut
+        for line in lines:
+            text = line.split("!", 1)[0].strip()
+            if text:
+                return text.lower().startswith("[version]") or (
+                    bool(_OPTION.fullmatch(text)) and len(text.split()) > 1
+                )
+        if size >= len(opening):
+            break
     return False
 
 
