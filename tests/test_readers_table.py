@@ -69,6 +69,18 @@ def test_encodings(tmp_path, encoding, bom):
         assert any("Latin-1" in n for n in sweep.notes)
 
 
+def test_a_time_of_day_in_the_preamble_is_not_a_key(tmp_path):
+    # "hh:mm" is a time (ISO 8601, from memory): the colon between two digits separates
+    # no key from its value; "Date: ..." still names one
+    text = (
+        "! exported 2026-11-30 10:12\n"
+        "Date: 2026-11-30 10:12:45\n"
+        "freq_hz,gain_db,phase_deg\n" + rows(",")
+    )
+    sweep = read_sweep(write(tmp_path, text))
+    assert sweep.metadata == {"Date": "2026-11-30 10:12:45"}
+
+
 def test_preamble_metadata_comments_and_repeated_header(tmp_path):
     text = (
         "# exported by a bench script\n"

@@ -287,10 +287,13 @@ def _metadata(preamble: list[str], delimiter) -> dict:
         text = line.strip().lstrip("#!;%/ ").strip()
         if not text:
             continue
-        m = re.match(r"([^:=,;\t]{1,60}?)\s*[:=,;\t]\s*(.+)", text)
-        if m and not is_number(m.group(1), "."):
-            value = m.group(2).strip()
-            if delimiter:
-                value = ", ".join(c for c in split_cells(value, delimiter) if c)
-            found[m.group(1).strip()] = value
+        m = re.match(r"([^:=,;\t]{1,60}?)\s*([:=,;\t])\s*(.+)", text)
+        if not m or is_number(m.group(1), "."):
+            continue
+        key, sep, value = m.group(1).strip(), m.group(2), m.group(3).strip()
+        if sep == ":" and key[-1].isdigit() and value[0].isdigit():
+            continue  # a time of day, "exported 2026-11-30 10:12": no key in it
+        if delimiter:
+            value = ", ".join(c for c in split_cells(value, delimiter) if c)
+        found[key] = value
     return found
