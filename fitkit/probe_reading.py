@@ -34,7 +34,7 @@ def probe_reading(problem, first, values: dict, q: dict) -> list:
         return []
     tau = q["delay"].value
     probe = setup.probe_f + tau / setup.sense_ohm
-    if not probe >= 0.0:  # a lead no capacitance gives: a true delay
+    if not probe >= 0.0:  # a phase lead that no capacitance gives: a true delay
         return []
     other = FitProblem(
         problem.sweep,
