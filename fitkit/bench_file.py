@@ -365,6 +365,12 @@ def _convert(name: str, unit: str | None, raw, *, what: str) -> tuple:
             )
         return (raw if name == "relative" else str(raw)), 0.0
     text, sep, u_text = str(raw).replace("\u00b1", "+-").partition("+-")
+    if sep and not text.strip():
+        raise SetupError(
+            f"{what} = {raw!r} gives no value before '+-'",
+            remedy=f"write the value, then its uncertainty, e.g. {_EXAMPLES[name].split(' or ')[0]}"
+            "+-1%",
+        )
     value = _parse(text, unit, what)
     low = "above 0" if name in _POSITIVE else "0 or more"
     if not math.isfinite(value) or (value <= 0 if name in _POSITIVE else value < 0):

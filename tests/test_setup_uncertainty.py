@@ -110,6 +110,8 @@ def test_stated_uncertainties_are_read_from_both_forms():
     for bad in ("47+-", "47 +- x", "47+--1"):
         with pytest.raises(SetupError, match="standard uncertainty"):
             check_override("sense_ohm", bad)
+    with pytest.raises(SetupError, match="no value before"):
+        check_override("sense_ohm", "+-1")
     with pytest.raises(SetupError, match="this bench has not"):
         Setup("impedance", "impedance", uncertainty=(("sense_ohm", 1.0),))
 
