@@ -28,7 +28,7 @@ even for a wide span at low Q.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -38,6 +38,7 @@ from fitkit.estimate import predicted
 from fitkit.noise import Noise
 from fitkit.result import OPTIONAL, QUANTITIES, Quantity
 from fitkit.setups import Setup
+from fitkit.sweep import Sweep
 from fitkit.topologies import get_topology
 from fitkit.units import format_quantity
 
@@ -138,20 +139,27 @@ class Bounds:
     covariance : ndarray
         The bound on the internal parameters' covariance (pseudo-inverse on the
         determined directions).
+    bench : dict
+        Name -> the standard uncertainty the bench values' stated ones give it (no
+        sweep lowers it; it adds to the bound in quadrature); empty when none is stated.
     """
 
     quantities: dict
     freq_hz: np.ndarray
     parameters: list
     covariance: np.ndarray
+    bench: dict = field(default_factory=dict)
 
     def __getitem__(self, name: str) -> Quantity:
         return self.quantities[name]
 
-    def relative(self, name: str) -> float | None:
-        """The bound as a fraction of the value; ``None`` when undetermined."""
+    def relative(self, name: str, with_bench: bool = False) -> float | None:
+        """The bound as a fraction of the value (with the bench's share, in quadrature);
+        ``None`` when undetermined."""
         q = self.quantities[name]
-        return None if not q.determined else q.stderr / abs(q.value)
+        if not q.determined:
+            return None
+        return math.hypot(q.stderr, self.bench.get(name, 0.0) if with_bench else 0.0) / abs(q.value)
 
 
 @dataclass(frozen=True)
@@ -359,7 +367,28 @@ def cramer_rao(
             continue
         rel = math.sqrt(max(float(g @ cov @ g), 0.0))
         quantities[name] = Quantity(name, values[name], rel * abs(values[name]))
-    return Bounds(quantities, f, planned.names, cov)
+    bench = _bench_shares(planned, f, noise, complex_data)
+    return Bounds(
+        quantities, f, planned.names, cov, {n: bench[n] for n in quantities if n in bench}
+    )
+
+
+def _bench_shares(planned: _Planned, freq_hz: np.ndarray, noise: Noise, complex_data) -> dict:
+    """Each value's standard uncertainty from the bench values' stated ones, as a fit of
+    the noise-free planned sweep would carry them (:mod:`fitkit.setup_uncertainty`)."""
+    setup = planned.setup
+    if not setup.uncertainty or not setup.is_calibrated:
+        return {}
+    from fitkit.problem import FitProblem  # (lmfit and scipy only when a share is asked)
+    from fitkit.setup_uncertainty import setup_rows
+
+    m = planned.response(planned.base, freq_hz)
+    sweep = Sweep(freq_hz, m if complex_data else np.abs(m), setup.kind, source="planned sweep")
+    problem = FitProblem(sweep, setup, planned.topology, {})
+    values = {**dict(zip(planned.names, map(float, planned.base))), "gain": 1.0}
+    rows = setup_rows(problem, values, planned.names, np.arange(freq_hz.size), noise)
+    names = {n for gradient, _ in rows for n in gradient}
+    return {n: math.sqrt(sum((g.get(n, 0.0) * u) ** 2 for g, u in rows)) for n in names}
 
 
 def resonance(
@@ -550,14 +579,28 @@ def plan_sweep(
                     f"a {model.get('model', 'series')} circuit has no {QUANTITIES[target][1]}",
                     remedy="plan for a value the model has, or choose the model that has it",
                 )
-            rel = b.relative(target)
+            rel = b.relative(target, with_bench=True)
             if rel is None:
                 return Plan(target, target_rel, None, None, 1, b[target].reason)
+            floor = b.bench.get(target, 0.0) / abs(b[target].value)
+            if floor >= target_rel:
+                return Plan(target, target_rel, None, b, 1, _bench_floor(target, floor))
             if best is None or rel < best[0]:
                 best = (rel, shape, b)
             if rel <= target_rel and (found is None or rel < found[0]):
                 found = (rel, shape, b)
         if found is not None:
             return Plan(target, target_rel, found[1], found[2])
-    averages = math.ceil((best[0] / target_rel) ** 2)
+    # averaging lowers the sweep's share only: (bound^2 / n) + bench^2 <= target^2
+    b = best[2]
+    own, floor = b.relative(target), b.bench.get(target, 0.0) / abs(b[target].value)
+    averages = math.ceil(own**2 / (target_rel**2 - floor**2))
     return Plan(target, target_rel, best[1], best[2], averages)
+
+
+def _bench_floor(target: str, floor: float) -> str:
+    return (
+        f"the bench values' stated uncertainties alone give {QUANTITIES[target][1]} "
+        f"{100.0 * floor:.3g}%, and no sweep lowers that share; measure them better (the "
+        "sense resistor on a good meter, the channels' gains against each other)"
+    )

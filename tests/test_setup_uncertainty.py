@@ -178,3 +178,30 @@ def test_a_reading_gain_goes_into_the_loop_resistance_and_leaves_the_loaded_q():
         ), name
     described = Setup(**stated.setup).describe()
     assert described.endswith("reading gain 1.000 +/- 0.020"), described
+
+
+def test_plan_puts_the_bench_share_beside_the_bound_and_refuses_a_target_below_it():
+    # the divider formula again: a 1 % sense resistor is 1 % of L and C whatever the
+    # sweep, and nothing of f0; a target below that share cannot be planned for
+    import numpy as np
+
+    from fitkit.noise import Noise
+    from fitkit.plan import cramer_rao, plan_sweep
+
+    stated = dataclasses.replace(DIVIDER, uncertainty=(("sense_ohm", 0.47),))
+    f = np.linspace(400e3, 600e3, 201)
+    noise = Noise("additive", 1e-3)
+    bounds = cramer_rao(stated, f, 5.0, 100e-6, 1e-9, noise)
+    plain = cramer_rao(DIVIDER, f, 5.0, 100e-6, 1e-9, noise)
+    assert bounds.bench["L"] == pytest.approx(0.01 * 100e-6, rel=1e-4)
+    assert bounds.bench["C"] == pytest.approx(0.01 * 1e-9, rel=1e-4)
+    assert bounds.bench["f0"] == pytest.approx(0.0, abs=1e-6 * plain["f0"].stderr)
+    assert bounds["L"].stderr == pytest.approx(plain["L"].stderr, rel=1e-9)  # the bound stays
+    assert bounds.relative("L", with_bench=True) == pytest.approx(
+        math.hypot(plain.relative("L"), 0.01), rel=1e-4
+    )
+    refused = plan_sweep(stated, 5.0, 100e-6, 1e-9, noise, "L", 0.005)
+    assert refused.shape is None and "stated uncertainties alone give L 1%" in refused.reason
+    reached = plan_sweep(stated, 5.0, 100e-6, 1e-9, noise, "L", 0.011)
+    assert reached.shape is not None
+    assert reached.bounds.relative("L", with_bench=True) <= 0.011

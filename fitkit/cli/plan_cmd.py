@@ -269,9 +269,11 @@ def _sweep_text(shape: SweepShape, freq_hz: np.ndarray) -> str:
 
 
 def bounds_table(bounds: Bounds) -> str:
-    """Expected values, their bounds and the relative bounds; gaps with their reasons."""
+    """Expected values, their bounds and the relative bounds (and, where the setup states
+    uncertainties of its values, the bound with their share); gaps with their reasons."""
     width = max(len(QUANTITIES[name][1]) for name in bounds.quantities)
-    lines = [f"  {'value':<{width}}  {'expected':>12}  {'bound (1 sigma)':>16}  {'relative':>9}"]
+    head = f"  {'value':<{width}}  {'expected':>12}  {'bound (1 sigma)':>16}  {'relative':>9}"
+    lines = [head + (f"  {'with the bench':>14}" if bounds.bench else "")]
     reasons = []
     for name in bounds.quantities:
         unit, label = QUANTITIES[name]
@@ -280,11 +282,19 @@ def bounds_table(bounds: Bounds) -> str:
             lines.append(f"  {label:<{width}}  {'':>12}  {'not determined':>16}")
             reasons.append(q.reason)
             continue
-        lines.append(
+        line = (
             f"  {label:<{width}}  {format_quantity(q.value, unit):>12}  "
-            f"{format_quantity(q.stderr, unit):>16}  {_percent(q.stderr / abs(q.value)):>9}"
+            f"{format_quantity(q.stderr, unit):>16}  {_percent(bounds.relative(name)):>9}"
         )
+        if bounds.bench:
+            line += f"  {_percent(bounds.relative(name, with_bench=True)):>14}"
+        lines.append(line)
     lines.extend(f"  why: {reason}" for reason in dict.fromkeys(reasons))
+    if bounds.bench:
+        lines.append(
+            "  with the bench: the bound and the share of the bench values' stated "
+            "uncertainties, which no sweep lowers"
+        )
     return "\n".join(lines)
 
 
@@ -300,7 +310,7 @@ def plan_text(found: Plan, f0_hz: float, q_loaded: float) -> str:
         f"{s.points} {s.spacing} points over +-{s.span_bw:g} loaded bandwidths "
         f"({format_quantity(f[0], 'Hz')} to {format_quantity(f[-1], 'Hz')})"
     )
-    reached = _percent(found.bounds.relative(found.target))
+    reached = _percent(found.bounds.relative(found.target, with_bench=True))
     if found.averages == 1:
         return f"{want}: cheapest sweep on the grid: {sweep}, bound {reached}"
     return (
