@@ -139,7 +139,7 @@ def compare(unit, reference) -> list[Change]:
     """
     unit, reference = (x if isinstance(x, Side) else Side("", x) for x in (unit, reference))
     now, ref = unit.values, reference.values
-    if _same_bench(unit.bench, reference.bench):  # one fixture for both
+    if one_bench(unit, reference):  # one fixture for both
         now, ref = ({n: (v, side.own.get(n, u)) for n, (v, u) in side.values.items()}
                     for side in (unit, reference))  # fmt: skip
     return [
@@ -149,15 +149,17 @@ def compare(unit, reference) -> list[Change]:
     ]
 
 
-def _same_bench(a: dict | None, b: dict | None) -> bool:
-    """Whether two fitted sides name one bench (a saved fit holds lists where a fresh one
-    holds tuples: compared as Setups)."""
-    if a is None or b is None:
+def one_bench(unit: Side, reference: Side) -> bool:
+    """Whether two fitted sides name one bench that states uncertainties of its values:
+    their shares then leave the change (a saved fit holds lists where a fresh one holds
+    tuples: the setups are compared as Setups)."""
+    if unit.bench is None or reference.bench is None:
         return False
     try:
-        return Setup(**a) == Setup(**b)
+        a, b = Setup(**unit.bench), Setup(**reference.bench)
     except (TypeError, FitkitError):
         return False
+    return a == b and bool(a.uncertainty)
 
 
 def _doubt(name: str, unit: Side, reference: Side) -> str:

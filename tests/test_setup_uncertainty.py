@@ -137,7 +137,7 @@ def test_one_bench_for_both_sweeps_leaves_its_fixture_out_of_the_drift():
     # both sweeps through the same 47 ohm +- 1 % resistor: a resistor 1 % off scales L
     # now and L then alike (Z = Rs (1/H - 1)), so the change of L carries only the
     # sweeps' own shares; on two benches the fixture's shares are independent and add
-    from fitkit.drift import compare, side_of_fit
+    from fitkit.drift import compare, one_bench, side_of_fit
     from tests.synthetic import TRUTH
 
     stated = dataclasses.replace(DIVIDER, uncertainty=(("sense_ohm", 0.47),))
@@ -147,6 +147,7 @@ def test_one_bench_for_both_sweeps_leaves_its_fixture_out_of_the_drift():
     same = {c.name: c for c in compare(side_of_fit(now, "now"), side_of_fit(then, "then"))}
     own = math.hypot(now.quantities["L"].u_sweep, then.quantities["L"].u_sweep)
     assert same["L"].u == pytest.approx(own, rel=1e-9) and same["L"].significant
+    assert one_bench(side_of_fit(now, "now"), side_of_fit(then, "then"))
     # the same with the reference saved and read back (its setup then holds lists)
     saved = CircuitFit.from_dict(json.loads(then.to_json()))
     assert saved.quantities["L"].u_sweep == then.quantities["L"].u_sweep
@@ -157,6 +158,7 @@ def test_one_bench_for_both_sweeps_leaves_its_fixture_out_of_the_drift():
     apart = {c.name: c for c in compare(side_of_fit(now_there, "now"), side_of_fit(then, "then"))}
     combined = math.hypot(now_there.quantities["L"].stderr, then.quantities["L"].stderr)
     assert apart["L"].u == pytest.approx(combined, rel=1e-9) and not apart["L"].significant
+    assert not one_bench(side_of_fit(now_there, "now"), side_of_fit(then, "then"))
 
 
 def test_a_reading_gain_goes_into_the_loop_resistance_and_leaves_the_loaded_q():

@@ -17,6 +17,7 @@ from fitkit.drift import (
     Side,
     compare,
     corrections,
+    one_bench,
     reading,
     side_of_fit,
     signed_percent,
@@ -100,6 +101,7 @@ def drift_command(unit, reference, nominal, spec_file, noise, as_json, **opts):
         data = {
             "unit": now.to_dict(),
             "reference": ref.to_dict(),
+            "one_bench": one_bench(now, ref),
             "changes": {c.name: c.to_dict() for c in changes},
             "reading": words,
             "corrections": fixes,
@@ -123,6 +125,11 @@ def drift_lines(now: Side, ref: Side, changes: list, words: list, fixes: list) -
             + ("  doubtful" if c.doubtful else "")
         )
     lines.append(f"  (a change counts when |z| > {SIGNIFICANT_Z:g}; u = sqrt(u^2 + u_ref^2))")
+    if one_bench(now, ref):
+        lines.append(
+            "  (one bench for both sweeps: the stated uncertainties of its values scale both "
+            "alike and leave the change; the +/- above are the sweeps' own)"
+        )
     for c in changes:
         if c.doubtful:
             lines.append(f"  doubtful: {QUANTITIES[c.name][1]}: {c.doubtful}")
