@@ -287,6 +287,11 @@ def _best_gain(model: np.ndarray, data: np.ndarray) -> float:
     return float(np.dot(mag, data) / np.dot(mag, mag))
 
 
+#: how many times the readings' robust scatter the smoothed dip curve must span before
+#: its shape is read
+_RESOLVED = 10.0
+
+
 def resonance_side(sweep: Sweep, setup: Setup, topology: Topology, strict: bool = False):
     """``"above"`` or ``"below"`` the sweep when the reading shows the resonance lies
     beyond that end (read as ``topology``), ``None`` when its shape does not say.
@@ -295,7 +300,8 @@ def resonance_side(sweep: Sweep, setup: Setup, topology: Topology, strict: bool 
     toward the end of the sweep nearer the resonance: its lowest stretch sits at that
     end. A running median over a few points keeps one noisy reading from deciding.
     ``strict`` asks for the lowest point of the smoothed curve to be the end point
-    itself: still falling there, so no resonance of this shape can lie inside.
+    itself: still falling there, so no resonance of this shape can lie inside. A curve
+    whose smoothed span is within a few times the readings' scatter gives no verdict.
     """
     t = _dip_at_resonance(setup, np.abs(sweep.values), topology)
     ok = np.isfinite(t) & (t > 0)  # (noise can lift a reflection above 1: no power there)
@@ -307,6 +313,11 @@ def resonance_side(sweep: Sweep, setup: Setup, topology: Topology, strict: bool 
     # the running median, the ends padded with the end values; in C, as a window that
     # grows with the sweep would make it cost as the square of the points in numpy
     smooth = median_filter(t, size=max(3, t.size // 20) | 1, mode="nearest")
+    # a shape lost in the readings' scatter says nothing (a high-Q tank straight on a
+    # reflection bridge: |S11| within a few tenths of a per cent of 1 everywhere)
+    scatter = 1.4826 * float(np.median(np.abs(t - smooth)))
+    if float(np.ptp(smooth)) <= _RESOLVED * scatter:
+        return None
     lowest = int(np.argmin(smooth))
     margin = 1 if strict else max(2, t.size // 20)
     if lowest >= t.size - margin:

@@ -353,6 +353,20 @@ def _probe_mislabelled(rng) -> dict:
     return _spec(effect, "MW", setup, truth, f, clean, additive(clean, 3e-4, rng))
 
 
+def _tank_on_reflection(rng) -> dict:
+    # a tank of Q 300 straight on a network analyser's port: 44 kohm at resonance against
+    # 50 ohm, so |S11| stays within 0.3 % of 1 and the resonance shows in the phase;
+    # S11 = (Z - Z0)/(Z + Z0) (Pozar, Microwave Engineering, ch. 2, from memory)
+    r, l_h = 0.5, 2.2e-6
+    c_f = capacitor_for(10.7e6, l_h)
+    truth = tank_truth(r, l_h, c_f, 50.0)
+    f = span(truth["f0"], truth["bandwidth"], 12.0)
+    clean = reflection(tank_impedance(f, r, l_h, c_f))
+    effect = "a high-Q tank straight on a reflection port: |S11| within 0.3 % of 1"
+    setup = Setup("reflection", "s11")
+    return _spec(effect, "IF 10.7 MHz", setup, truth, f, clean, additive(clean, 1e-3, rng))
+
+
 #: the series trap of the calibration-plane case and the line left between plane and part
 PLANE = {"r": 5.0, "L": 1e-6, "f0": 98e6, "length_m": 0.04}
 
@@ -505,6 +519,7 @@ _BUILDERS = {
     "open_capacitor": _open_capacitor,
     "flat_resistor": _flat_resistor,
     "probe_mislabelled": _probe_mislabelled,
+    "tank_on_reflection": _tank_on_reflection,
 }
 CASE_NAMES = tuple(_BUILDERS)
 

@@ -181,3 +181,18 @@ def test_judge_rejects_a_number_that_cannot_be_known():
     fit = fit_case(case)
     (verdict,) = judge(replace(case, truth={"R": None}, must_be_right=()), fit)
     assert verdict.outcome == "confidently wrong"
+
+
+@pytest.mark.parametrize("seed", [14, 15])  # the seeds whose noise once refused the tank
+def test_a_tank_whose_magnitude_barely_dips_is_fitted_not_refused(seed):
+    # |S11| of a Q 300 tank on a 50 ohm port stays within 0.3 % of 1: the end-of-sweep
+    # screen, which reads the magnitude alone, must give no verdict on a shape lost in the
+    # scatter (it once read one and refused the tank); the phase then fixes the fit
+    from fitkit.estimate import resonance_side
+    from fitkit.topologies import TOPOLOGIES
+
+    case = make_case("tank_on_reflection", seed=seed)
+    assert resonance_side(case.sweep, case.setup, TOPOLOGIES["tank"], strict=True) is None
+    _, fit, verdicts = run_case("tank_on_reflection", seed=seed)
+    assert fit.topology == "tank", _report(fit)
+    assert all(v.outcome == RIGHT for v in verdicts), [v.describe() for v in verdicts]
