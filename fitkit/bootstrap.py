@@ -24,12 +24,13 @@ _RELATIVE_LIMIT = 0.1
 
 
 def needs_bootstrap(quantities: dict, sparse: bool) -> bool:
-    """A sparse band, or a loaded Q or f0 known to worse than ``_RELATIVE_LIMIT``."""
+    """A sparse band, or a Q known to worse than ``_RELATIVE_LIMIT`` by the sweep itself
+    (a fixture's stated uncertainty adds no nonlinearity)."""
     if sparse:
         return True
     for name in ("Q_loaded", "Q"):
         q = quantities.get(name)
-        if q is not None and q.determined and q.value > 0 and q.stderr > _RELATIVE_LIMIT * q.value:
+        if q is not None and q.determined and q.value > 0 and q.own_u > _RELATIVE_LIMIT * q.value:
             return True
     return False
 

@@ -220,9 +220,7 @@ def _to_result(problem, result, first: FirstPass, noise: Noise, judged: list) ->
     judged = judged + fit_warnings(problem, result, redchi, quantities, first, noise)
     quantities = _mark_doubtful(quantities, judged)
     inside = points_in_band(problem, quantities, used)
-    # (judged on the sweep's own share: the fixture's adds no nonlinearity)
-    own = {n: dataclasses.replace(q, stderr=q.own_u) for n, q in quantities.items()}
-    if needs_bootstrap(own, inside is not None and inside < MIN_POINTS_IN_BAND):
+    if needs_bootstrap(quantities, inside is not None and inside < MIN_POINTS_IN_BAND):
         quantities = _with_intervals(problem, result, used, noise, quantities)
         judged.append(
             (

@@ -19,7 +19,6 @@ import dataclasses
 
 from fitkit.model_choice import EVIDENCE, bic
 from fitkit.nuisance import PARAMETER
-from fitkit.problem import FitProblem
 from fitkit.units import format_quantity, format_to
 
 _DELAY = PARAMETER["delay"]
@@ -36,12 +35,9 @@ def probe_reading(problem, first, values: dict, q: dict) -> list:
     probe = setup.probe_f + tau / setup.sense_ohm
     if not probe >= 0.0:  # a phase lead that no capacitance gives: a true delay
         return []
-    other = FitProblem(
-        problem.sweep,
-        dataclasses.replace(setup, probe_f=probe),
-        problem.topology,
-        problem.known,
+    other = problem.with_terms(
         tuple(t for t in problem.bench.terms if t != "delay"),
+        setup=dataclasses.replace(setup, probe_f=probe),
     )
     here = first.moved(values)
     start = {k: v for k, v in values.items() if k != _DELAY}

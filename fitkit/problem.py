@@ -99,9 +99,14 @@ class FitProblem:
             self.bounds["ln_skin"] = (-9.0, 9.0)
         self.bounds.update({PARAMETER[t]: BOUNDS[PARAMETER[t]] for t in self.bench.terms})
 
-    def with_terms(self, terms: tuple, topology: Topology | None = None) -> FitProblem:
-        """The same problem with other bench terms switched on (and another topology)."""
-        other = FitProblem(self.sweep, self.setup, topology or self.topology, self.known, terms)
+    def with_terms(
+        self, terms: tuple, topology: Topology | None = None, setup: Setup | None = None
+    ) -> FitProblem:
+        """The same problem with other bench terms switched on (and another topology, or
+        the same bench with other fixture values)."""
+        other = FitProblem(
+            self.sweep, setup or self.setup, topology or self.topology, self.known, terms
+        )
         other.forced, other.may_keep_first = self.forced, self.may_keep_first
         return other
 
@@ -309,8 +314,8 @@ class FitProblem:
 
     def solve(self, values: dict, free, idx, noise: Noise) -> tuple:
         """The first solve from a start: on lmfit where its result may serve as the last
-        pass (a model the user named, an estimated noise with one sigma for every
-        residual), straight on MINPACK otherwise. Both run the same Levenberg-Marquardt
+        pass (``may_keep_first``, one sigma for every residual), straight on MINPACK
+        otherwise. Both run the same Levenberg-Marquardt
         from the same point (lmfit given no bounds to map)."""
         one_sigma = noise.domain == "additive" or not self.sweep.is_complex
         if not (self.may_keep_first and one_sigma):

@@ -25,8 +25,6 @@ import dataclasses
 
 import numpy as np
 
-from fitkit.problem import FitProblem
-
 _STEP = 1e-6
 
 
@@ -53,7 +51,7 @@ def setup_rows(problem, values: dict, names: list, used, noise) -> list:
     return rows
 
 
-def _with(problem, field: str, value: float) -> FitProblem:
+def _with(problem, field: str, value: float):
     """The same problem on a bench whose ``field`` has ``value``."""
     setup = dataclasses.replace(problem.setup, **{field: value})
-    return FitProblem(problem.sweep, setup, problem.topology, problem.known, problem.bench.terms)
+    return problem.with_terms(problem.bench.terms, setup=setup)

@@ -16,10 +16,10 @@ def fit_table(fit: CircuitFit) -> str:
         f"fitkit {__version__}: {TOPOLOGIES[fit.topology].label} fitted to {fit.sweep['source']}",
         f"  sweep    {_sweep_line(fit.sweep)}",
         f"  bench    {setup.describe()}",
+        *(["           (the bench values' stated +/- are in every uncertainty below)"]
+          if setup.uncertainty else []),
         f"  noise    {s.noise}",
-    ]
-    if setup.uncertainty:
-        lines.insert(3, "           (the bench values' stated +/- are in every uncertainty below)")
+    ]  # fmt: skip
     if fit.choice:
         lines.append(f"  model    {fit.choice}")
     for name in fit.known:
